@@ -1,0 +1,7 @@
+"""``python -m optlint`` is the same as the ``optlint`` command."""
+
+import sys
+
+from optlint.cli import main
+
+sys.exit(main())

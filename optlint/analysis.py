@@ -1,0 +1,165 @@
+"""Analysis of one Model: the curvature question asked of each objective and constraint, memoised.
+
+Rules never call the calculus themselves; they ask this object, which knows the model's facts
+(variables, declared signs, PSD parameters, literal matrices) and caches one answer per expression.
+
+The question each model part asks:
+- a minimised objective must be convex, a maximised one concave;
+- ``lhs <= rhs`` (or ``<``) needs ``lhs - rhs`` convex; ``lhs >= rhs`` (or ``>``) needs ``rhs - lhs``
+  convex; ``lhs == rhs`` needs ``lhs - rhs`` affine (B&V 2004 §4.2.1: the standard form of a convex
+  problem has convex inequality functions and affine equality functions);
+- ``A >> B`` and cone constraints need affine arguments.
+The difference of the two sides is judged, not each side alone: that is the mathematical question;
+the sides are analysed as well, only to phrase the message.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import sympy
+
+from optlint.calculus import Analysis, Budget, Curvature, Derivation, Facts, analyse, blame
+from optlint.ir import Constraint, Model, Objective
+from optlint.printer import show
+
+
+@dataclass
+class Judgement:
+    """The verdict on one variant of one objective or constraint."""
+
+    item: Objective | Constraint
+    want: Curvature
+    expr: Any
+    branch: tuple[str, ...]
+    result: Analysis
+    failure: tuple[Derivation, str] | None  # None when the part is as it must be
+    sides: tuple[Any, Any] | None = None  # (left, right) of a constraint variant
+
+    @property
+    def ok(self) -> bool:
+        return self.failure is None
+
+    @property
+    def unknown_only(self) -> bool:
+        """The verdict fails only because a function with no known curvature is involved."""
+        return bool(self.result.unknown_functions)
+
+
+def satisfies(curvature: Curvature, want: Curvature) -> bool:
+    if want is Curvature.CONVEX:
+        return curvature.is_convex
+    if want is Curvature.CONCAVE:
+        return curvature.is_concave
+    return curvature.is_affine
+
+
+class ModelAnalysis:
+    def __init__(self, model: Model, budget: Budget | None = None):
+        self.model = model
+        self.budget = budget or Budget()
+        self.facts = Facts(
+            variables=model.variables,
+            psd=frozenset(model.psd),
+            matrices=dict(model.matrices),
+        )
+        self._memo: dict[Any, Analysis] = {}
+        self._judged: dict[int, list[Judgement]] = {}
+
+    def analyse(self, expr) -> Analysis:
+        hit = self._memo.get(expr)
+        if hit is None:
+            hit = analyse(expr, self.facts, self.budget)
+            self._memo[expr] = hit
+        return hit
+
+    def has_variables(self, expr) -> bool:
+        return isinstance(expr, sympy.Basic) and bool(expr.free_symbols & self.facts.variables)
+
+    # -- judgements --------------------------------------------------------------------------
+
+    def judge(self, item: Objective | Constraint) -> list[Judgement]:
+        key = id(item)
+        if key not in self._judged:
+            self._judged[key] = (self._judge_objective(item) if isinstance(item, Objective)
+                                 else self._judge_constraint(item))
+        return self._judged[key]
+
+    def _verdict(self, item, want, expr, branch, sides=None) -> Judgement:
+        result = self.analyse(expr)
+        failure = None
+        if not satisfies(result.curvature, want):
+            failure = blame(result.tree, want) or (result.tree, "the composition rules give no verdict")
+        return Judgement(item, want, expr, branch, result, failure, sides)
+
+    def _judge_objective(self, obj: Objective) -> list[Judgement]:
+        want = Curvature.CONVEX if obj.sense == "minimise" else Curvature.CONCAVE
+        return [self._verdict(obj, want, v.expr, v.branch) for v in obj.variants if self.has_variables(v.expr)]
+
+    def _judge_constraint(self, con: Constraint) -> list[Judgement]:
+        out = []
+        for left, right, branch in con.variants:
+            if con.relation in ("<=", "<"):
+                expr, want = left - right, Curvature.CONVEX
+            elif con.relation in (">=", ">"):
+                expr, want = right - left, Curvature.CONVEX
+            else:  # "==", "psd", "cone"
+                expr, want = left - right, Curvature.AFFINE
+            if self.has_variables(expr):
+                out.append(self._verdict(con, want, expr, branch, (left, right)))
+        return out
+
+    # -- words for messages ------------------------------------------------------------------
+
+    def text(self, expr) -> str:
+        """The modeller's own source text for a subexpression when we have it, else a printout."""
+        origin = self.model.origins.get(expr)
+        if origin is not None:
+            return origin[1]
+        return show(expr)
+
+    def side_curvature(self, expr) -> Curvature:
+        return self.analyse(expr).curvature if isinstance(expr, sympy.Basic) else Curvature.CONSTANT
+
+
+def derivation_path(root: Derivation, target: Derivation) -> list[Derivation]:
+    """The nodes from the root down to ``target`` (inclusive), found by identity; iterative."""
+    stack: list[tuple[Derivation, list[Derivation]]] = [(root, [root])]
+    while stack:
+        node, path = stack.pop()
+        if node is target:
+            return path
+        for child in reversed(node.children):
+            stack.append((child, path + [child]))
+    return [root]
+
+
+def step_evidence(analysis: ModelAnalysis, node: Derivation) -> dict[str, Any]:
+    return {
+        "expression": analysis.text(node.expr),
+        "curvature": node.curvature.value,
+        "sign": node.sign.value,
+        "rule": node.rule,
+    }
+
+
+def judgement_evidence(analysis: ModelAnalysis, j: Judgement) -> dict[str, Any]:
+    """The JSON evidence every curvature finding carries: the verdict and the failing derivation."""
+    evidence: dict[str, Any] = {
+        "proof": "rules",
+        "curvature": j.result.curvature.value,
+        "required": j.want.value,
+        "expression": show(j.expr, 400),
+    }
+    if j.branch:
+        evidence["branch"] = list(j.branch)
+    if j.failure is not None:
+        node, reason = j.failure
+        evidence["failing_step"] = dict(step_evidence(analysis, node), reason=reason)
+        evidence["derivation"] = [step_evidence(analysis, n) for n in derivation_path(j.result.tree, node)]
+    if j.result.unknown_functions:
+        evidence["unknown_functions"] = list(j.result.unknown_functions)
+    if j.result.budget_exceeded:
+        evidence["budget_exceeded"] = True
+    return evidence

@@ -1,0 +1,164 @@
+"""Discover: turn the paths given on the command line into the ordered list of files to check.
+
+Directories are walked recursively in sorted order; ``.gitignore`` files met on the way are
+respected (the subset of the format that real repositories use: comments, blank lines, ``!``
+negation, trailing ``/`` for directories, leading ``/`` or an inner ``/`` for anchored patterns,
+``*``, ``?``, ``[...]`` and ``**``). Directories that never hold project sources (``.git``, virtual
+environments, caches) are skipped. A file named explicitly is always checked, whatever its suffix
+or ignore status. Symlinked directories are not followed, so a link loop cannot trap the walk.
+"""
+
+from __future__ import annotations
+
+import fnmatch
+import os
+import re
+from dataclasses import dataclass
+
+SUFFIXES = (".py", ".ipynb")
+ALWAYS_SKIPPED_DIRS = frozenset({
+    ".git", ".hg", ".svn", "__pycache__", ".mypy_cache", ".pytest_cache", ".ruff_cache",
+    ".tox", ".nox", ".venv", "venv", ".eggs", "node_modules", ".optlint_cache",
+})
+
+
+@dataclass(frozen=True)
+class IgnoreRule:
+    regex: re.Pattern[str]
+    negated: bool
+    dir_only: bool
+
+
+def _glob_to_regex(pattern: str) -> str:
+    out, i = [], 0
+    while i < len(pattern):
+        c = pattern[i]
+        if pattern.startswith("**/", i):
+            out.append("(?:.*/)?")
+            i += 3
+            continue
+        if pattern.startswith("/**", i) and i + 3 == len(pattern):
+            out.append("/.*")
+            i += 3
+            continue
+        if pattern.startswith("**", i):
+            out.append(".*")
+            i += 2
+            continue
+        if c == "*":
+            out.append("[^/]*")
+        elif c == "?":
+            out.append("[^/]")
+        elif c == "[":
+            j = pattern.find("]", i + 1)
+            if j == -1:
+                out.append(re.escape(c))
+            else:
+                body = pattern[i + 1:j].replace("\\", "\\\\")
+                if body.startswith("!"):
+                    body = "^" + body[1:]
+                out.append(f"[{body}]")
+                i = j
+        else:
+            out.append(re.escape(c))
+        i += 1
+    return "".join(out)
+
+
+def parse_gitignore(text: str) -> list[IgnoreRule]:
+    rules = []
+    for raw in text.splitlines():
+        line = raw.rstrip()
+        if not line or line.startswith("#"):
+            continue
+        negated = line.startswith("!")
+        if negated:
+            line = line[1:]
+        dir_only = line.endswith("/")
+        line = line.rstrip("/")
+        if not line:
+            continue
+        anchored = "/" in line
+        line = line.lstrip("/")
+        body = _glob_to_regex(line)
+        regex = re.compile(("^" if anchored else r"^(?:.*/)?") + body + "$")
+        rules.append(IgnoreRule(regex, negated, dir_only))
+    return rules
+
+
+def _ignored(rel: str, is_dir: bool, stack: list[tuple[str, list[IgnoreRule]]]) -> bool:
+    verdict = False
+    for base, rules in stack:
+        if base and not rel.startswith(base + "/"):
+            continue
+        sub = rel[len(base) + 1:] if base else rel
+        for rule in rules:
+            if rule.dir_only and not is_dir:
+                continue
+            if rule.regex.match(sub):
+                verdict = not rule.negated
+    return verdict
+
+
+def _read_gitignore(directory: str) -> list[IgnoreRule]:
+    try:
+        with open(os.path.join(directory, ".gitignore"), encoding="utf-8", errors="replace") as fh:
+            return parse_gitignore(fh.read())
+    except OSError:
+        return []
+
+
+def discover(paths: list[str], excludes: tuple[str, ...] = ()) -> tuple[list[str], list[tuple[str, str]]]:
+    """Return (files to check, [(path, problem)]) for the given paths, in a deterministic order."""
+    files: list[str] = []
+    problems: list[tuple[str, str]] = []
+    seen: set[str] = set()
+
+    def excluded(path: str) -> bool:
+        norm = path.replace(os.sep, "/")
+        return any(fnmatch.fnmatch(norm, pat) or fnmatch.fnmatch(os.path.basename(norm), pat) for pat in excludes)
+
+    def add(path: str) -> None:
+        key = os.path.normpath(path)
+        if key not in seen:
+            seen.add(key)
+            files.append(path)
+
+    for given in paths:
+        if os.path.isfile(given):
+            add(given)
+            continue
+        if not os.path.isdir(given):
+            problems.append((given, "no such file or directory"))
+            continue
+        stack: list[tuple[str, list[IgnoreRule]]] = []
+        _walk(given, "", stack, add, excluded, problems)
+    return files, problems
+
+
+def _walk(root, rel_dir, stack, add, excluded, problems) -> None:
+    directory = os.path.join(root, rel_dir) if rel_dir else root
+    own = _read_gitignore(directory)
+    if own:
+        stack = stack + [(rel_dir, own)]
+    try:
+        entries = sorted(os.scandir(directory), key=lambda e: e.name)
+    except OSError as exc:
+        problems.append((directory, f"cannot list directory: {exc.strerror or exc}"))
+        return
+    for entry in entries:
+        rel = f"{rel_dir}/{entry.name}" if rel_dir else entry.name
+        path = os.path.join(root, rel)
+        try:
+            is_dir = entry.is_dir(follow_symlinks=False)
+            is_file = entry.is_file()
+        except OSError:
+            continue
+        if is_dir:
+            if entry.name in ALWAYS_SKIPPED_DIRS or _ignored(rel, True, stack) or excluded(path):
+                continue
+            _walk(root, rel, stack, add, excluded, problems)
+        elif is_file and entry.name.endswith(SUFFIXES):
+            if _ignored(rel, False, stack) or excluded(path):
+                continue
+            add(path)

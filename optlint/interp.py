@@ -1,0 +1,1044 @@
+"""Interpret: a small abstract evaluator that follows how model-building code assembles its values.
+
+It walks a module's statements in order, the way the code would run, but computes *symbolic*
+values: sympy expressions for model terms, lists of constraints, objectives, problems, functions.
+It never runs user code and never imports anything; calls it does not understand become data (when
+no decision variable flows into them) or unknown functions (when one does).
+
+How it follows the code:
+- names are flow-sensitive: ``x = a; x = x + b`` is ``a + b``;
+- ``if``/``else``, ``try``/``except`` and ``match`` are run branch by branch and their environments
+  merged, so a name may have several *alternatives*; each alternative carries the branch labels
+  ("`risk` as assigned on line 14") that a finding reports;
+- loops run their body twice with fresh index symbols (catches sign flips in accumulations such as
+  ``obj = -obj + ...``); comprehensions bind their targets to fresh index symbols;
+- helper functions of the same module are inlined at their call sites (depth- and size-bounded);
+  every function is also run on its own with its parameters as data, so models built inside
+  functions are found even if nothing calls them;
+- ``self.attr = value`` inside a method is remembered for the rest of that method's run.
+
+A dialect supplies ``DialectHooks``: how its library calls (resolved by qualified name) build values.
+The interpreter registers objectives and constraints with the hooks' ``Registry`` as it meets them.
+"""
+
+from __future__ import annotations
+
+import itertools
+from dataclasses import dataclass, field
+from typing import Any, Callable
+
+import libcst as cst
+import sympy
+from libcst.metadata import PositionProvider, QualifiedNameProvider, QualifiedNameSource
+
+from optlint.calculus import functions as F
+from optlint.ir import Site
+from optlint.lift import DataSymbol, data, involves, is_expr, number_from_literal, safe_pow
+
+MAX_ALTS = 12          # alternatives kept per evaluated expression
+MAX_INLINE_DEPTH = 6   # nested helper inlining
+MAX_STATEMENTS = 20000  # statements executed per file (loops, inlining) before giving up quietly
+
+
+# ---------------------------------------------------------------------------------------------
+# Values
+
+@dataclass
+class Alt:
+    value: Any
+    branch: tuple[str, ...] = ()
+    line: int = 0  # line of the assignment that produced it (for branch labels)
+
+
+class Opaque:
+    """A Python value the interpreter does not model; lifts to a DataSymbol named by its text."""
+
+    __slots__ = ("text",)
+
+    def __init__(self, text: str):
+        self.text = text
+
+
+@dataclass
+class GlobalRef:
+    """Something imported or built in, by qualified name (``cvxpy.Minimize``, ``builtins.sum``)."""
+
+    qualname: str
+
+
+@dataclass
+class ListVal:
+    items: list[Any]
+    from_comprehension: bool = False
+
+
+@dataclass
+class DictVal:
+    items: dict[Any, Any]
+
+
+@dataclass
+class FuncVal:
+    node: Any  # cst.FunctionDef | cst.Lambda
+    closure: "Env"
+    name: str
+
+
+@dataclass
+class BoundMethod:
+    base: Any
+    name: str
+    base_text: str
+
+
+@dataclass
+class ConsVal:
+    """The value of a constraint expression: the keys under which the registry recorded it."""
+
+    keys: tuple[Any, ...]
+
+
+@dataclass
+class ObjVal:
+    key: Any
+
+
+@dataclass
+class ProbVal:
+    objective: Any
+    constraints: Any
+    site: Site
+
+
+@dataclass
+class ClassVal:
+    name: str
+    methods: dict[str, FuncVal] = field(default_factory=dict)
+
+
+NONE = Opaque("None")
+
+
+class Env:
+    __slots__ = ("vars", "parent")
+
+    def __init__(self, parent: "Env | None" = None, vars: dict | None = None):
+        self.vars: dict[str, list[Alt]] = vars if vars is not None else {}
+        self.parent = parent
+
+    def lookup(self, name: str) -> list[Alt] | None:
+        env = self
+        while env is not None:
+            if name in env.vars:
+                return env.vars[name]
+            env = env.parent
+        return None
+
+    def copy(self) -> "Env":
+        return Env(self.parent, dict(self.vars))
+
+
+def merge_envs(base: Env, branches: list[Env], labels: list[str]) -> None:
+    """Merge branch environments into ``base`` (in place), labelling differing alternatives."""
+    names: list[str] = []
+    for b in branches:
+        for n in b.vars:
+            if n not in names:
+                names.append(n)
+    for name in names:
+        per_branch = [b.vars.get(name) for b in branches]
+        if all(p is per_branch[0] for p in per_branch):
+            if per_branch[0] is not None:
+                base.vars[name] = per_branch[0]
+            continue
+        merged: list[Alt] = []
+        seen: set[int] = set()
+        for alts, label in zip(per_branch, labels):
+            if alts is None:
+                alts = base.lookup(name)
+                if alts is None:
+                    continue
+            for alt in alts:
+                if id(alt) in seen:
+                    continue
+                seen.add(id(alt))
+                tag = f"`{name}` as assigned on line {alt.line}" if alt.line else f"`{name}` ({label})"
+                merged.append(Alt(alt.value, tuple(sorted(set(alt.branch) | {tag})), alt.line))
+        base.vars[name] = merged[:MAX_ALTS]
+
+
+class _StopRun(Exception):
+    """Raised internally when a file exceeds the statement budget; never escapes ``run``."""
+
+
+# ---------------------------------------------------------------------------------------------
+# Hooks a dialect implements
+
+
+class DialectHooks:
+    """Dialect-specific behaviour. Subclasses override what their library needs."""
+
+    def call(self, interp: "Interpreter", qualname: str, args: list[Any], kwargs: dict[str, Any],
+             node: cst.Call) -> Any:
+        """Value of a call to an imported function; return ``NotImplemented`` when not ours."""
+        return NotImplemented
+
+    def method(self, interp: "Interpreter", base: Any, name: str, args: list[Any],
+               kwargs: dict[str, Any], node: cst.Call) -> Any:
+        return NotImplemented
+
+    def attribute(self, interp: "Interpreter", base: Any, name: str, node: cst.Attribute) -> Any:
+        return NotImplemented
+
+    def star_import_name(self, module: str, name: str) -> str | None:
+        """Qualified name for ``name`` when the file did ``from module import *`` (else None)."""
+        return None
+
+
+# ---------------------------------------------------------------------------------------------
+# The interpreter
+
+
+class Interpreter:
+    def __init__(self, wrapper: cst.MetadataWrapper, path: str, hooks: DialectHooks, registry):
+        self.wrapper = wrapper
+        self.module = wrapper.module
+        self.path = path
+        self.hooks = hooks
+        self.registry = registry
+        self.positions = wrapper.resolve(PositionProvider)
+        self.qualnames = wrapper.resolve(QualifiedNameProvider)
+        self.star_modules = self._star_imports()
+        self.variables: set[sympy.Symbol] = set()
+        self.loop_depth = 0
+        self.condition_depth = 0
+        self.inline_stack: list[Any] = []
+        self.returns: list[list[Alt]] = []
+        self.statements = 0
+        self.fresh_counter = itertools.count(1)
+        self.ran_functions: set[int] = set()
+        self.current_hint: str | None = None
+        self.current_branch: tuple[str, ...] = ()  # branch labels of the call being evaluated
+
+    # -- entry -----------------------------------------------------------------------------
+
+    def run(self) -> None:
+        module_env = Env()
+        try:
+            self.exec_block(self.module.body, module_env)
+            for fn, closure, cls in self._all_functions(self.module.body, module_env):
+                if id(fn) in self.ran_functions:
+                    continue
+                self.ran_functions.add(id(fn))
+                self.run_function_standalone(fn, closure, cls)
+        except _StopRun:
+            self.registry.note_budget(self.path)
+
+    def _all_functions(self, body, env, cls=None):
+        for stmt in body:
+            if isinstance(stmt, cst.FunctionDef):
+                yield stmt, env, cls
+                yield from self._all_functions(_block_body(stmt.body), env, cls)
+            elif isinstance(stmt, cst.ClassDef):
+                yield from self._all_functions(_block_body(stmt.body), env, stmt.name.value)
+            elif isinstance(stmt, (cst.If, cst.Try, cst.With, cst.For, cst.While)):
+                for block in _sub_blocks(stmt):
+                    yield from self._all_functions(block, env, cls)
+
+    def run_function_standalone(self, fn: cst.FunctionDef, closure: Env, cls: str | None) -> None:
+        env = Env(parent=closure)
+        params = fn.params
+        for p in list(params.posonly_params) + list(params.params) + list(params.kwonly_params):
+            env.vars[p.name.value] = [Alt(Opaque(p.name.value))]
+        for star in (params.star_arg, params.star_kwarg):
+            if isinstance(star, cst.Param):
+                env.vars[star.name.value] = [Alt(Opaque(star.name.value))]
+        self.returns.append([])
+        try:
+            self.exec_block(_block_body(fn.body), env)
+        finally:
+            self.returns.pop()
+
+    # -- positions and text ------------------------------------------------------------------
+
+    def site(self, node: cst.CSTNode) -> Site:
+        rng = self.positions[node]
+        return Site(self.path, rng.start.line, rng.start.column + 1, rng.end.line, rng.end.column + 1)
+
+    def line(self, node: cst.CSTNode) -> int:
+        return self.positions[node].start.line
+
+    def code(self, node: cst.CSTNode) -> str:
+        text = self.module.code_for_node(node)
+        return " ".join(text.split())
+
+    def fresh_index(self, hint: str, assumptions: dict | None = None) -> DataSymbol:
+        """A new data symbol for one run of a loop target (an index unless ``assumptions`` say)."""
+        return data(f"{hint}#{next(self.fresh_counter)}", **(assumptions if assumptions is not None else {"integer": True}))
+
+    # -- statements -------------------------------------------------------------------------
+
+    def tick(self) -> None:
+        self.statements += 1
+        if self.statements > MAX_STATEMENTS:
+            raise _StopRun
+
+    def exec_block(self, body, env: Env) -> None:
+        for stmt in body:
+            self.exec_stmt(stmt, env)
+
+    def exec_stmt(self, stmt, env: Env) -> None:
+        self.tick()
+        if isinstance(stmt, (cst.SimpleStatementLine, _SuiteLine)):
+            for small in stmt.body:
+                self.exec_small(small, env)
+        elif isinstance(stmt, cst.If):
+            self.exec_if(stmt, env)
+        elif isinstance(stmt, (cst.For, cst.While)):
+            self.exec_loop(stmt, env)
+        elif isinstance(stmt, cst.Try) or type(stmt).__name__ == "TryStar":
+            self.exec_try(stmt, env)
+        elif isinstance(stmt, cst.With):
+            for item in stmt.items:
+                alts = self.eval(item.item, env)
+                if item.asname is not None:
+                    self.bind(item.asname.name, alts, env, self.line(stmt))
+            self.exec_block(_block_body(stmt.body), env)
+        elif isinstance(stmt, cst.FunctionDef):
+            env.vars[stmt.name.value] = [Alt(FuncVal(stmt, env, stmt.name.value), (), self.line(stmt))]
+        elif isinstance(stmt, cst.ClassDef):
+            cls = ClassVal(stmt.name.value)
+            for inner in _block_body(stmt.body):
+                if isinstance(inner, cst.FunctionDef):
+                    cls.methods[inner.name.value] = FuncVal(inner, env, inner.name.value)
+            env.vars[stmt.name.value] = [Alt(cls, (), self.line(stmt))]
+        elif isinstance(stmt, cst.Match):
+            branches, labels = [], []
+            self.eval(stmt.subject, env)
+            for case in stmt.cases:
+                b = env.copy()
+                self.exec_block(_block_body(case.body), b)
+                branches.append(b)
+                labels.append(f"case on line {self.line(case)}")
+            branches.append(env.copy())
+            labels.append("no case matched")
+            merge_envs(env, branches, labels)
+
+    def exec_small(self, small, env: Env) -> None:
+        if isinstance(small, cst.Assign):
+            alts = self.eval(small.value, env, hint=_target_hint(small.targets[0].target))
+            for target in small.targets:
+                self.bind(target.target, alts, env, self.line(small))
+        elif isinstance(small, cst.AnnAssign):
+            if small.value is not None:
+                alts = self.eval(small.value, env, hint=_target_hint(small.target))
+                self.bind(small.target, alts, env, self.line(small))
+        elif isinstance(small, cst.AugAssign):
+            self.exec_augassign(small, env)
+        elif isinstance(small, cst.Expr):
+            self.eval(small.value, env)
+        elif isinstance(small, cst.Return):
+            alts = self.eval(small.value, env) if small.value is not None else [Alt(NONE)]
+            if self.returns:
+                self.returns[-1].extend(alts)
+        elif isinstance(small, cst.Assert):
+            self.condition_depth += 1
+            try:
+                self.eval(small.test, env)
+            finally:
+                self.condition_depth -= 1
+
+    def exec_augassign(self, small: cst.AugAssign, env: Env) -> None:
+        op = type(small.operator).__name__.replace("Assign", "")
+        target_alts = self.eval(small.target, env)
+        value_alts = self.eval(small.value, env)
+        out: list[Alt] = []
+        for t, v in self.product(target_alts, value_alts):
+            if isinstance(t.value, ListVal) and op == "Add":
+                t.value.items.extend(self.iterate(v.value))
+                out.append(Alt(t.value, _join(t.branch, v.branch)))
+            else:
+                out.append(Alt(self.binop(op, t.value, v.value, small), _join(t.branch, v.branch)))
+        self.bind(small.target, out, env, self.line(small))
+
+    def exec_if(self, stmt: cst.If, env: Env) -> None:
+        self.condition_depth += 1
+        try:
+            self.eval(stmt.test, env)
+        finally:
+            self.condition_depth -= 1
+        then_env = env.copy()
+        self.exec_block(_block_body(stmt.body), then_env)
+        else_env = env.copy()
+        if isinstance(stmt.orelse, cst.If):
+            self.exec_if(stmt.orelse, else_env)
+        elif isinstance(stmt.orelse, cst.Else):
+            self.exec_block(_block_body(stmt.orelse.body), else_env)
+        line = self.line(stmt)
+        merge_envs(env, [then_env, else_env], [f"if branch on line {line}", f"else branch of line {line}"])
+
+    def exec_loop(self, stmt, env: Env) -> None:
+        if isinstance(stmt, cst.For):
+            iter_alts = self.eval(stmt.iter, env)
+        else:
+            self.condition_depth += 1
+            try:
+                self.eval(stmt.test, env)
+            finally:
+                self.condition_depth -= 1
+            iter_alts = []
+        self.loop_depth += 1
+        try:
+            for _ in range(2):
+                if isinstance(stmt, cst.For):
+                    self.bind_loop_target(stmt.target, iter_alts, env, self.line(stmt))
+                self.exec_block(_block_body(stmt.body), env)
+        finally:
+            self.loop_depth -= 1
+        if stmt.orelse is not None:
+            self.exec_block(_block_body(stmt.orelse.body), env)
+
+    def exec_try(self, stmt, env: Env) -> None:
+        body_env = env.copy()
+        self.exec_block(_block_body(stmt.body), body_env)
+        branches, labels = [body_env], [f"try block on line {self.line(stmt)}"]
+        for handler in stmt.handlers:
+            h_env = body_env.copy()
+            self.exec_block(_block_body(handler.body), h_env)
+            branches.append(h_env)
+            labels.append(f"except block on line {self.line(handler)}")
+        if stmt.orelse is not None:
+            self.exec_block(_block_body(stmt.orelse.body), body_env)
+        merge_envs(env, branches, labels)
+        if stmt.finalbody is not None:
+            self.exec_block(_block_body(stmt.finalbody.body), env)
+
+    # -- binding ----------------------------------------------------------------------------
+
+    def bind(self, target, alts: list[Alt], env: Env, line: int) -> None:
+        alts = [Alt(a.value, a.branch, line) for a in alts]
+        if isinstance(target, cst.Name):
+            env.vars[target.value] = alts
+        elif isinstance(target, (cst.Tuple, cst.List)):
+            elements = target.elements
+            for i, el in enumerate(elements):
+                sub: list[Alt] = []
+                for a in alts:
+                    items = a.value.items if isinstance(a.value, ListVal) else None
+                    if items is not None and len(items) == len(elements) and not isinstance(el, cst.StarredElement):
+                        sub.append(Alt(items[i], a.branch, line))
+                    else:
+                        sub.append(Alt(Opaque(self.code(el.value)), a.branch, line))
+                self.bind(el.value, sub, env, line)
+        elif isinstance(target, cst.Attribute):
+            key = _dotted(target)
+            if key is not None:
+                env.vars[key] = alts
+        elif isinstance(target, cst.StarredElement):
+            self.bind(target.value, [Alt(Opaque(self.code(target.value)))], env, line)
+
+    def bind_loop_target(self, target, iter_alts: list[Alt], env: Env, line: int) -> None:
+        items = []
+        for a in iter_alts:
+            if isinstance(a.value, ListVal) and a.value.items and not a.value.from_comprehension:
+                items.extend(a.value.items)
+        if isinstance(target, cst.Name):
+            if items and all(isinstance(i, FuncVal) or isinstance(i, ConsVal) for i in items):
+                env.vars[target.value] = [Alt(i, (), line) for i in items[:MAX_ALTS]]
+            elif items and all(isinstance(i, sympy.Number) for i in items):
+                env.vars[target.value] = [Alt(self.fresh_index(target.value, _common_sign(items)), (), line)]
+            else:
+                env.vars[target.value] = [Alt(self.fresh_index(target.value), (), line)]
+        elif isinstance(target, (cst.Tuple, cst.List)):
+            for el in target.elements:
+                self.bind_loop_target(el.value, [], env, line)
+        else:
+            self.bind(target, [Alt(Opaque(self.code(target)))], env, line)
+
+    # -- expressions ------------------------------------------------------------------------
+
+    def product(self, *alt_lists: list[Alt]):
+        for combo in itertools.islice(itertools.product(*alt_lists), MAX_ALTS):
+            yield combo
+
+    def eval(self, node, env: Env, hint: str | None = None) -> list[Alt]:
+        if isinstance(node, cst.Call):
+            return self.eval_Call(node, env, hint)
+        method = getattr(self, "eval_" + type(node).__name__, None)
+        if method is None:
+            return [Alt(Opaque(self.code(node)))]
+        return method(node, env)
+
+    def eval_one(self, node, env: Env):
+        return self.eval(node, env)[0].value
+
+    def eval_Integer(self, node, env):
+        num = number_from_literal("int", node.value)
+        return [Alt(num if num is not None else Opaque(node.value))]
+
+    def eval_Float(self, node, env):
+        num = number_from_literal("float", node.value)
+        return [Alt(num if num is not None else Opaque(node.value))]
+
+    def eval_SimpleString(self, node, env):
+        try:
+            return [Alt(node.evaluated_value if isinstance(node.evaluated_value, str) else Opaque(node.value))]
+        except Exception:  # libcst decodes escapes itself; a malformed escape is just data
+            return [Alt(Opaque(node.value))]
+
+    def eval_ConcatenatedString(self, node, env):
+        return [Alt(Opaque(self.code(node)))]
+
+    def eval_Name(self, node, env):
+        name = node.value
+        alts = env.lookup(name)
+        if alts is not None:
+            return alts
+        if name in ("True", "False"):
+            return [Alt(name == "True")]
+        if name == "None":
+            return [Alt(NONE)]
+        qn = self.qualname(node)
+        if qn is not None:
+            return [Alt(GlobalRef(qn))]
+        return [Alt(Opaque(name))]
+
+    def qualname(self, node) -> str | None:
+        names = self.qualnames.get(node, ())
+        if callable(names):  # libcst computes qualified names lazily
+            names = names()
+        imported = sorted(q.name for q in names if q.source is QualifiedNameSource.IMPORT)
+        if imported:
+            return imported[0]
+        if isinstance(node, cst.Name):  # `from lib import *` shadows builtins such as sum and max
+            for module in self.star_modules:
+                resolved = self.hooks.star_import_name(module, node.value)
+                if resolved is not None:
+                    return resolved
+        builtin = sorted(q.name for q in names if q.source is QualifiedNameSource.BUILTIN)
+        if builtin:
+            return builtin[0] if builtin[0].startswith("builtins.") else "builtins." + builtin[0]
+        return None
+
+    def eval_Attribute(self, node, env):
+        key = _dotted(node)
+        if key is not None:
+            alts = env.lookup(key)
+            if alts is not None:
+                return alts
+        head = _head_name(node)
+        if head is not None and env.lookup(head) is None:
+            qn = self.qualname(node)
+            if qn is not None:
+                return [Alt(GlobalRef(qn))]
+        out = []
+        for b in self.eval(node.value, env):
+            out.append(Alt(self.attribute(b.value, node.attr.value, node), b.branch))
+        return out
+
+    def attribute(self, base, name: str, node) -> Any:
+        if isinstance(base, GlobalRef):
+            return GlobalRef(base.qualname + "." + name)
+        result = self.hooks.attribute(self, base, name, node)
+        if result is not NotImplemented:
+            return result
+        if isinstance(base, ClassVal) and name in base.methods:
+            return base.methods[name]
+        return BoundMethod(base, name, self.code(node.value))
+
+    def eval_Subscript(self, node, env):
+        out = []
+        idx_alts = self.eval_subscript_index(node, env)
+        for b, i in self.product(self.eval(node.value, env), idx_alts):
+            out.append(Alt(self.subscript(b.value, i.value, node), _join(b.branch, i.branch)))
+        return out
+
+    def eval_subscript_index(self, node, env) -> list[Alt]:
+        parts = []
+        for el in node.slice:
+            s = el.slice
+            if isinstance(s, cst.Index):
+                parts.append([Alt(self.index_expr(a.value, s.value), a.branch) for a in self.eval(s.value, env)][:1])
+            else:  # a slice lower:upper:step
+                bounds = []
+                for piece in (s.lower, s.upper, s.step):
+                    bounds.append(sympy.Symbol("_") if piece is None else self.index_expr(self.eval_one(piece, env), piece))
+                parts.append([Alt(sympy.Function("slice")(*bounds))])
+        out = []
+        for combo in self.product(*parts):
+            exprs = [c.value for c in combo]
+            branch = _join(*(c.branch for c in combo))
+            out.append(Alt(exprs[0] if len(exprs) == 1 else sympy.Function("ix")(*exprs), branch))
+        return out
+
+    def index_expr(self, value, node) -> sympy.Basic:
+        expr = self.to_expr(value, node)
+        return expr if expr is not None else data(self.code(node))
+
+    def subscript(self, base, idx, node):
+        if isinstance(base, ListVal) and isinstance(idx, sympy.Integer) and not base.from_comprehension:
+            try:
+                return base.items[int(idx)]
+            except IndexError:
+                return Opaque(self.code(node))
+        if isinstance(base, DictVal):
+            for k, v in base.items.items():
+                if k == idx:
+                    return v
+            return Opaque(self.code(node))
+        expr = self.to_expr(base, node.value)
+        if expr is None:
+            return Opaque(self.code(node))
+        return F.index(expr, idx)
+
+    def eval_BinaryOperation(self, node, env):
+        op = type(node.operator).__name__
+        out = []
+        for l, r in self.product(self.eval(node.left, env), self.eval(node.right, env)):
+            out.append(Alt(self.binop(op, l.value, r.value, node), _join(l.branch, r.branch)))
+        return out
+
+    def binop(self, op: str, left, right, node) -> Any:
+        if op == "Add" and isinstance(left, ListVal) and isinstance(right, ListVal):
+            return ListVal(left.items + right.items)
+        if op in ("RightShift", "LeftShift"):
+            result = self.hooks_psd(op, left, right, node)
+            if result is not None:
+                return result
+        a, b = self.to_expr(left, None), self.to_expr(right, None)
+        if a is None or b is None:
+            return Opaque(self.code(node))
+        try:
+            if op == "Add":
+                return a + b
+            if op == "Subtract":
+                return a - b
+            if op == "Multiply":
+                return a * b
+            if op == "Divide":
+                return a * safe_pow(b, sympy.Integer(-1))
+            if op == "Power":
+                return safe_pow(a, b)
+            if op == "MatrixMultiply":
+                return F.matmul(a, b)
+        except (TypeError, ValueError, ZeroDivisionError, RecursionError):
+            return Opaque(self.code(node))
+        if self.involves(a) or self.involves(b):
+            return sympy.Function(f"operator{_OP_TEXT.get(op, op)}")(a, b)
+        return Opaque(self.code(node))
+
+    def hooks_psd(self, op, left, right, node):
+        register = getattr(self.registry, "psd", None)
+        a, b = self.to_expr(left, None), self.to_expr(right, None)
+        if register is None or a is None or b is None or not (self.involves(a) or self.involves(b)):
+            return None
+        if self.condition_depth:
+            return Opaque(self.code(node))
+        lhs, rhs = (a, b) if op == "RightShift" else (b, a)
+        return ConsVal((register(self, node, lhs, rhs),))
+
+    def eval_UnaryOperation(self, node, env):
+        op = type(node.operator).__name__
+        out = []
+        for a in self.eval(node.expression, env):
+            expr = self.to_expr(a.value, None)
+            if op == "Minus" and expr is not None:
+                out.append(Alt(-expr, a.branch))
+            elif op == "Plus" and expr is not None:
+                out.append(Alt(expr, a.branch))
+            else:
+                out.append(Alt(Opaque(self.code(node)), a.branch))
+        return out
+
+    def eval_BooleanOperation(self, node, env):
+        self.eval(node.left, env)
+        self.eval(node.right, env)
+        return [Alt(Opaque(self.code(node)))]
+
+    def eval_Comparison(self, node, env):
+        left_alts = self.eval(node.left, env)
+        keys: list[Any] = []
+        branches: list[str] = []
+        for target in node.comparisons:
+            right_alts = self.eval(target.comparator, env)
+            op = type(target.operator).__name__
+            rel = _REL.get(op)
+            if rel is not None and not self.condition_depth:
+                for l, r in self.product(left_alts, right_alts):
+                    a, b = self.to_expr(l.value, None), self.to_expr(r.value, None)
+                    if a is None or b is None or not (self.involves(a) or self.involves(b)):
+                        continue
+                    key = self.registry.constraint(self, node, target, rel, a, b, _join(l.branch, r.branch))
+                    if key not in keys:
+                        keys.append(key)
+                    branches.extend(_join(l.branch, r.branch))
+            left_alts = right_alts
+        if keys:
+            return [Alt(ConsVal(tuple(keys)), tuple(sorted(set(branches))))]
+        return [Alt(Opaque(self.code(node)))]
+
+    def eval_IfExp(self, node, env):
+        self.condition_depth += 1
+        try:
+            self.eval(node.test, env)
+        finally:
+            self.condition_depth -= 1
+        line = self.line(node)
+        body = [Alt(a.value, _join(a.branch, (f"`if` side of the conditional on line {line}",))) for a in self.eval(node.body, env)]
+        other = [Alt(a.value, _join(a.branch, (f"`else` side of the conditional on line {line}",))) for a in self.eval(node.orelse, env)]
+        return (body + other)[:MAX_ALTS]
+
+    def eval_NamedExpr(self, node, env):
+        alts = self.eval(node.value, env)
+        self.bind(node.target, alts, env, self.line(node))
+        return alts
+
+    def eval_Lambda(self, node, env):
+        return [Alt(FuncVal(node, env, "<lambda>"))]
+
+    def eval_Tuple(self, node, env):
+        return self.eval_sequence(node.elements, env)
+
+    def eval_List(self, node, env):
+        return self.eval_sequence(node.elements, env)
+
+    def eval_Set(self, node, env):
+        return self.eval_sequence(node.elements, env)
+
+    def eval_sequence(self, elements, env):
+        per = []
+        for el in elements:
+            alts = self.eval(el.value, env)
+            if isinstance(el, cst.StarredElement):
+                alts = [Alt(("*", a.value), a.branch) for a in alts]
+            per.append(alts)
+        if not per:
+            return [Alt(ListVal([]))]
+        out = []
+        for combo in self.product(*per):
+            items: list[Any] = []
+            for c in combo:
+                if isinstance(c.value, tuple) and len(c.value) == 2 and c.value[0] == "*":
+                    items.extend(self.iterate(c.value[1]))
+                else:
+                    items.append(c.value)
+            out.append(Alt(ListVal(items), _join(*(c.branch for c in combo))))
+        return out
+
+    def eval_Dict(self, node, env):
+        items = {}
+        for el in node.elements:
+            if isinstance(el, cst.DictElement):
+                key = self.eval_one(el.key, env)
+                items[key if isinstance(key, (str, sympy.Basic, bool)) else id(el)] = self.eval_one(el.value, env)
+        return [Alt(DictVal(items))]
+
+    def eval_comprehension(self, node, env, element):
+        local = Env(parent=env)
+        comp = node.for_in
+        while comp is not None:
+            iter_alts = self.eval(comp.iter, local)
+            self.bind_loop_target(comp.target, iter_alts, local, self.line(comp))
+            for cond in comp.ifs:
+                self.condition_depth += 1
+                try:
+                    self.eval(cond.test, local)
+                finally:
+                    self.condition_depth -= 1
+            comp = comp.inner_for_in
+        self.loop_depth += 1
+        try:
+            alts = self.eval(element, local)
+        finally:
+            self.loop_depth -= 1
+        return [Alt(ListVal([a.value], from_comprehension=True), a.branch) for a in alts]
+
+    def eval_ListComp(self, node, env):
+        return self.eval_comprehension(node, env, node.elt)
+
+    def eval_GeneratorExp(self, node, env):
+        return self.eval_comprehension(node, env, node.elt)
+
+    def eval_SetComp(self, node, env):
+        return self.eval_comprehension(node, env, node.elt)
+
+    def eval_Call(self, node, env, hint=None):
+        func_alts = self.eval(node.func, env)
+        arg_alts: list[list[Alt]] = []
+        names: list[str | None] = []
+        for arg in node.args:
+            alts = self.eval(arg.value, env)
+            if arg.star == "*":
+                alts = [Alt(("*", a.value), a.branch) for a in alts]
+                names.append(None)
+            elif arg.star == "**":
+                continue
+            else:
+                names.append(arg.keyword.value if arg.keyword is not None else None)
+            arg_alts.append(alts)
+        out = []
+        for f in func_alts[:MAX_ALTS]:
+            for combo in self.product(*arg_alts) if arg_alts else [()]:
+                args, kwargs = [], {}
+                for name, c in zip(names, combo):
+                    if name is None:
+                        if isinstance(c.value, tuple) and len(c.value) == 2 and c.value[0] == "*":
+                            args.extend(self.iterate(c.value[1]))
+                        else:
+                            args.append(c.value)
+                    else:
+                        kwargs[name] = c.value
+                branch = _join(f.branch, *(c.branch for c in combo))
+                self.current_branch = branch
+                for result in self.call(f.value, args, kwargs, node, hint):
+                    out.append(Alt(result.value, _join(branch, result.branch)))
+                if len(out) >= MAX_ALTS:
+                    return out[:MAX_ALTS]
+        return out or [Alt(Opaque(self.code(node)))]
+
+    def call(self, func, args, kwargs, node, hint) -> list[Alt]:
+        if isinstance(func, GlobalRef):
+            self.current_hint = hint
+            result = self.hooks.call(self, func.qualname, args, kwargs, node)
+            if result is NotImplemented:
+                result = self.builtin(func.qualname, args, kwargs, node)
+            return [Alt(result)]
+        if isinstance(func, FuncVal):
+            return self.inline(func, args, kwargs, node)
+        if isinstance(func, BoundMethod):
+            return [Alt(self.call_method(func, args, kwargs, node))]
+        if isinstance(func, ClassVal):
+            return [Alt(Opaque(self.code(node)))]
+        return [Alt(self.unknown_call(_callee_text(self, node), args, kwargs, node))]
+
+    def call_method(self, m: BoundMethod, args, kwargs, node):
+        base = m.base
+        if isinstance(base, ListVal):
+            if m.name == "append" and args:
+                base.items.append(args[0])
+                return NONE
+            if m.name == "extend" and args:
+                base.items.extend(self.iterate(args[0]))
+                return NONE
+            if m.name == "insert" and len(args) == 2:
+                base.items.append(args[1])
+                return NONE
+            if m.name == "copy":
+                return ListVal(list(base.items), base.from_comprehension)
+        result = self.hooks.method(self, base, m.name, args, kwargs, node)
+        if result is not NotImplemented:
+            return result
+        return self.unknown_call(f"{m.base_text}.{m.name}", [base] + list(args), kwargs, node)
+
+    def unknown_call(self, name: str, args, kwargs, node):
+        exprs = [self.to_expr(a, None) for a in list(args) + list(kwargs.values())]
+        exprs = [e for e in exprs if e is not None]
+        if any(self.involves(e) for e in exprs):
+            return sympy.Function(name)(*exprs)
+        return Opaque(self.code(node))
+
+    def builtin(self, qualname: str, args, kwargs, node):
+        name = qualname[len("builtins."):] if qualname.startswith("builtins.") else None
+        if name == "sum" and args:
+            items = self.iterate(args[0])
+            start = self.to_expr(args[1], None) if len(args) > 1 else sympy.Integer(0)
+            if isinstance(args[0], ListVal) and args[0].from_comprehension:
+                e = self.to_expr(args[0].items[0], None)
+                if e is not None and start is not None:
+                    return start + F.vsum(e)
+            exprs = [self.to_expr(i, None) for i in items]
+            if items and all(e is not None for e in exprs) and start is not None:
+                return sympy.Add(start, *exprs)
+            e = self.to_expr(args[0], None)
+            if e is not None and start is not None and not isinstance(args[0], ListVal):
+                return start + F.vsum(e)
+        if name == "abs" and len(args) == 1:
+            e = self.to_expr(args[0], None)
+            if e is not None:
+                return sympy.Abs(e)
+        if name in ("max", "min") and args:
+            items = self.iterate(args[0]) if len(args) == 1 else args
+            exprs = [self.to_expr(i, None) for i in items]
+            if exprs and all(e is not None for e in exprs):
+                if len(args) == 1 and isinstance(args[0], ListVal) and args[0].from_comprehension:
+                    return (F.vmax if name == "max" else F.vmin)(exprs[0])
+                return (sympy.Max if name == "max" else sympy.Min)(*exprs)
+        if name in ("list", "tuple") and args:
+            return ListVal(list(self.iterate(args[0])))
+        if name in ("list", "tuple") and not args:
+            return ListVal([])
+        if name == "float" and args and is_expr(args[0]):
+            return args[0]
+        return self.unknown_call(qualname, args, kwargs, node)
+
+    def inline(self, func: FuncVal, args, kwargs, node) -> list[Alt]:
+        fn = func.node
+        if len(self.inline_stack) >= MAX_INLINE_DEPTH or id(fn) in self.inline_stack:
+            return [Alt(self.unknown_call(func.name, args, kwargs, node))]
+        env = Env(parent=func.closure)
+        params = fn.params
+        positional = list(params.posonly_params) + list(params.params)
+        for i, p in enumerate(positional):
+            if i < len(args):
+                env.vars[p.name.value] = [Alt(args[i])]
+            elif p.name.value in kwargs:
+                env.vars[p.name.value] = [Alt(kwargs[p.name.value])]
+            elif p.default is not None:
+                env.vars[p.name.value] = self.eval(p.default, func.closure)
+            else:
+                env.vars[p.name.value] = [Alt(Opaque(p.name.value))]
+        for p in params.kwonly_params:
+            if p.name.value in kwargs:
+                env.vars[p.name.value] = [Alt(kwargs[p.name.value])]
+            elif p.default is not None:
+                env.vars[p.name.value] = self.eval(p.default, func.closure)
+            else:
+                env.vars[p.name.value] = [Alt(Opaque(p.name.value))]
+        for star in (params.star_arg, params.star_kwarg):
+            if isinstance(star, cst.Param):
+                env.vars[star.name.value] = [Alt(ListVal(list(args[len(positional):])) if star is params.star_arg else Opaque(star.name.value))]
+        self.inline_stack.append(id(fn))
+        if isinstance(fn, cst.FunctionDef):
+            self.ran_functions.add(id(fn))
+        try:
+            if isinstance(fn, cst.Lambda):
+                return self.eval(fn.body, env)
+            self.returns.append([])
+            try:
+                self.exec_block(_block_body(fn.body), env)
+                results = self.returns[-1]
+            finally:
+                self.returns.pop()
+            return results[:MAX_ALTS] or [Alt(NONE)]
+        finally:
+            self.inline_stack.pop()
+
+    # -- lifting helpers --------------------------------------------------------------------
+
+    def iterate(self, value) -> list[Any]:
+        if isinstance(value, ListVal):
+            return list(value.items)
+        if isinstance(value, ConsVal):
+            return [value]
+        return [value]
+
+    def involves(self, expr) -> bool:
+        return involves(expr, frozenset(self.variables))
+
+    def to_expr(self, value, node) -> sympy.Basic | None:
+        """The sympy form of a value, or None where the value is not a number or model term."""
+        if isinstance(value, sympy.Basic):
+            return value
+        if isinstance(value, bool):
+            return sympy.Integer(int(value))
+        if isinstance(value, int):
+            return sympy.Integer(value)
+        if isinstance(value, float):
+            return sympy.Float(value)
+        if isinstance(value, Opaque):
+            return data(value.text) if value is not NONE else None
+        if isinstance(value, ListVal):
+            exprs = [self.to_expr(v, None) for v in value.items]
+            if not exprs or any(e is None for e in exprs):
+                return None
+            if value.from_comprehension:
+                return F.stack(exprs[0])
+            return exprs[0] if len(exprs) == 1 else F.stack(*exprs)
+        if isinstance(value, GlobalRef):
+            return data(value.qualname)
+        return None
+
+    def _star_imports(self) -> tuple[str, ...]:
+        mods = []
+        for stmt in self.module.body:
+            if isinstance(stmt, cst.SimpleStatementLine):
+                for small in stmt.body:
+                    if isinstance(small, cst.ImportFrom) and isinstance(small.names, cst.ImportStar) and small.module is not None:
+                        mods.append(_dotted(small.module) or "")
+        return tuple(mods)
+
+
+# ---------------------------------------------------------------------------------------------
+# helpers
+
+_REL = {"LessThanEqual": "<=", "GreaterThanEqual": ">=", "Equal": "==", "LessThan": "<", "GreaterThan": ">"}
+_OP_TEXT = {"FloorDivide": "//", "Modulo": "%", "BitAnd": "&", "BitOr": "|", "BitXor": "^",
+            "LeftShift": "<<", "RightShift": ">>"}
+
+
+def _common_sign(numbers) -> dict:
+    """Sign assumptions that hold for every number of a literal sequence (loop over constants)."""
+    if all(n.is_positive for n in numbers):
+        return {"positive": True}
+    if all(n.is_nonnegative for n in numbers):
+        return {"nonnegative": True}
+    if all(n.is_negative for n in numbers):
+        return {"negative": True}
+    if all(n.is_nonpositive for n in numbers):
+        return {"nonpositive": True}
+    return {"real": True}
+
+
+def _join(*branches: tuple[str, ...]) -> tuple[str, ...]:
+    out: set[str] = set()
+    for b in branches:
+        out.update(b)
+    return tuple(sorted(out))
+
+
+def _block_body(block) -> list:
+    if isinstance(block, cst.IndentedBlock):
+        return list(block.body)
+    if isinstance(block, cst.SimpleStatementSuite):
+        return [_SuiteLine(block)]
+    return []
+
+
+class _SuiteLine:
+    """Adapter: a one-line suite (``if x: a = 1``) executed like a simple statement line."""
+
+    def __init__(self, suite):
+        self.body = suite.body
+
+
+def _sub_blocks(stmt):
+    if isinstance(stmt, cst.If):
+        yield _block_body(stmt.body)
+        if stmt.orelse is not None:
+            if isinstance(stmt.orelse, cst.If):
+                yield from _sub_blocks(stmt.orelse)
+            else:
+                yield _block_body(stmt.orelse.body)
+    elif isinstance(stmt, cst.Try):
+        yield _block_body(stmt.body)
+        for h in stmt.handlers:
+            yield _block_body(h.body)
+        if stmt.orelse is not None:
+            yield _block_body(stmt.orelse.body)
+        if stmt.finalbody is not None:
+            yield _block_body(stmt.finalbody.body)
+    elif isinstance(stmt, (cst.With, cst.For, cst.While)):
+        yield _block_body(stmt.body)
+
+
+def _dotted(node) -> str | None:
+    if isinstance(node, cst.Name):
+        return node.value
+    if isinstance(node, cst.Attribute):
+        base = _dotted(node.value)
+        return None if base is None else f"{base}.{node.attr.value}"
+    return None
+
+
+def _head_name(node) -> str | None:
+    while isinstance(node, cst.Attribute):
+        node = node.value
+    return node.value if isinstance(node, cst.Name) else None
+
+
+def _target_hint(target) -> str | None:
+    return target.value if isinstance(target, cst.Name) else _dotted(target)
+
+
+def _callee_text(interp: Interpreter, node: cst.Call) -> str:
+    return _dotted(node.func) or interp.code(node.func)

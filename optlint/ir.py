@@ -1,0 +1,93 @@
+"""The Model IR: what a dialect recogniser hands to the checks, independent of the library used.
+
+Everything after recognition reads only these values. Expressions are sympy expressions built from
+the vocabulary of ``optlint.calculus.functions``; sites point back into the source (1-based lines and
+columns, end exclusive as libcst reports them). Nothing here imports sympy at module import time, so
+the engine can build findings for files that never reach the lifter.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+
+@dataclass(frozen=True)
+class Site:
+    path: str
+    line: int
+    column: int
+    end_line: int
+    end_column: int
+    cell: int | None = None  # notebook cell number (1-based), when the file is a notebook
+
+
+@dataclass
+class Declaration:
+    """A symbol the model knows about: a decision variable, a parameter, a constant or a multiplier."""
+
+    name: str
+    role: str  # "variable" | "parameter" | "constant" | "multiplier"
+    symbol: Any  # sympy.Symbol
+    site: Site | None
+    shape: tuple[Any, ...] | None = None
+    sign: str = "unknown"  # positive | nonnegative | nonpositive | negative | unknown
+    attributes: tuple[str, ...] = ()  # e.g. ("boolean",), ("integer",), ("PSD",)
+
+
+@dataclass
+class Variant:
+    """One way an expression can be built when names have several reaching definitions."""
+
+    expr: Any  # sympy expression
+    branch: tuple[str, ...] = ()  # human descriptions of the definitions chosen, e.g. "`risk` from line 14"
+
+
+@dataclass
+class Objective:
+    sense: str  # "minimise" | "maximise"
+    variants: list[Variant]
+    site: Site
+    dialect: str
+    code: str  # source text of the objective call, one line, for messages
+
+
+@dataclass
+class Constraint:
+    relation: str  # "==", "<=", ">=", "<", ">", "psd" (left - right is positive semidefinite)
+    variants: list[tuple[Any, Any, tuple[str, ...]]]  # (left, right, branch) per reaching definition
+    site: Site
+    dialect: str
+    code: str
+    origin: str = "comparison"  # comparison | cone | ...
+    in_loop: bool = False  # built inside a loop or comprehension: one site, many instances
+
+
+@dataclass
+class Notice:
+    """Something a recogniser wants reported that is not about curvature (e.g. a model it skipped)."""
+
+    rule: str
+    site: Site
+    message: str
+    evidence: dict[str, Any] = field(default_factory=dict)
+
+
+@dataclass
+class Model:
+    """All objectives and constraints one recogniser found in one file."""
+
+    path: str
+    dialect: str
+    declarations: dict[Any, Declaration] = field(default_factory=dict)  # keyed by sympy symbol
+    objectives: list[Objective] = field(default_factory=list)
+    constraints: list[Constraint] = field(default_factory=list)
+    notices: list[Notice] = field(default_factory=list)
+    psd: set[Any] = field(default_factory=set)  # constant symbols known positive semidefinite
+    matrices: dict[Any, Any] = field(default_factory=dict)  # literal constant arrays by symbol
+    origins: dict[Any, tuple[int, str]] = field(default_factory=dict)  # sympy node -> (line, source)
+    truncated: bool = False  # the interpreter hit its statement budget; the model may be incomplete
+
+    @property
+    def variables(self) -> frozenset[Any]:
+        return frozenset(d.symbol for d in self.declarations.values() if d.role in ("variable", "multiplier"))

@@ -1,0 +1,74 @@
+"""Lift: the small vocabulary for turning source values into sympy expressions, safely.
+
+Every sympy object optlint builds from user code is built here or in a recogniser from CST nodes,
+never by parsing text. Numbers that would be expensive to materialise (``10**10**10``, a 5,000-digit
+literal) become named positive data symbols instead of being computed.
+
+Invariant: a value that is not a decision-variable expression is *data*. Data whose origin the
+interpreter cannot resolve becomes a ``DataSymbol`` named by its source text. ``DataSymbol`` is its
+own class so that data named ``x`` never equals a decision variable named ``x``.
+"""
+
+from __future__ import annotations
+
+import math
+
+import sympy
+
+MAX_INT_DIGITS = 60
+MAX_EXACT_POW_BITS = 256
+
+
+class DataSymbol(sympy.Symbol):
+    """A constant whose value the analyser does not know (data, a parameter passed in, an index)."""
+
+
+def data(text: str, **assumptions) -> DataSymbol:
+    """Data are real numbers (or arrays of them) unless a recogniser knows more."""
+    assumptions.setdefault("real", True)
+    return DataSymbol(text, **assumptions)
+
+
+def number_from_literal(kind: str, text: str) -> sympy.Basic | None:
+    """A sympy number for an Integer/Float literal of Python source, or None (imaginary, odd)."""
+    t = text.replace("_", "")
+    if kind == "int":
+        digits = t.lower()
+        if len(digits) > MAX_INT_DIGITS:
+            return data(text, positive=True)
+        try:
+            return sympy.Integer(int(digits, 0))
+        except ValueError:
+            return None
+    if kind == "float":
+        try:
+            value = float(t)
+        except ValueError:
+            return None
+        if math.isinf(value):
+            return data(text, positive=True)
+        return sympy.Float(value)
+    return None
+
+
+def safe_pow(base: sympy.Basic, exp: sympy.Basic) -> sympy.Basic:
+    """base ** exp, without letting sympy compute astronomically large numbers."""
+    if base.is_Number and exp.is_Number:
+        try:
+            big = abs(float(exp)) * max(1.0, math.log2(abs(float(base)) + 1.0)) > MAX_EXACT_POW_BITS
+        except (OverflowError, ValueError, TypeError):
+            big = True
+        if big:
+            positive = bool(base.is_positive)
+            return data(f"({base})**({exp})", positive=positive) if positive else data(f"({base})**({exp})")
+    return sympy.Pow(base, exp)
+
+
+def is_expr(value) -> bool:
+    return isinstance(value, sympy.Basic)
+
+
+def involves(expr, variables: frozenset) -> bool:
+    if not isinstance(expr, sympy.Basic) or not variables:
+        return False
+    return bool(expr.free_symbols & variables)

@@ -1,0 +1,1 @@
+"""Report: findings rendered for people (text) and for scripts (JSON)."""
