@@ -1,0 +1,144 @@
+"""The interpreter's soundness traps: ways model-building code could fool a naive reader.
+
+Each case is a small model whose convexity is settled by hand (Boyd & Vandenberghe 2004, §3.2.4
+composition rules); the test asserts the rule optlint reports, or that it reports nothing.
+"""
+
+from __future__ import annotations
+
+import textwrap
+
+import pytest
+
+from optlint.engine import check_file
+
+
+def _rules(tmp_path, source: str) -> list[tuple[int, str]]:
+    path = tmp_path / "model.py"
+    path.write_text(textwrap.dedent(source))
+    return sorted((f.site.line, f.rule) for f in check_file(str(path)).findings)
+
+
+def test_names_are_flow_sensitive(tmp_path):
+    # obj is rebound: the final definition (convex) is what reaches Minimize.
+    assert _rules(tmp_path, """
+        import cvxpy as cp
+        x = cp.Variable(3)
+        obj = -cp.norm(x)
+        obj = cp.norm(x) + 1
+        prob = cp.Problem(cp.Minimize(obj))
+    """) == []
+
+
+def test_every_branch_reaching_the_objective_is_analysed(tmp_path):
+    path = tmp_path / "model.py"
+    path.write_text(textwrap.dedent("""
+        import cvxpy as cp
+        def build(robust):
+            r = cp.Variable(5)
+            if robust:
+                loss = cp.sum(cp.huber(r, 1.0))
+            else:
+                loss = -cp.sum_squares(r)
+            return cp.Problem(cp.Minimize(loss))
+    """))
+    findings = check_file(str(path)).findings
+    assert [(f.site.line, f.rule) for f in findings] == [(9, "nonconvex-objective")]
+    assert "line 8" in findings[0].message          # the branch that fails is named
+
+
+def test_a_factory_called_twice_makes_two_variables(tmp_path):
+    # a*b of two distinct variables is not convex; a naive reader that reused one symbol
+    # would see a square and call it convex.
+    assert _rules(tmp_path, """
+        import cvxpy as cp
+        def make():
+            return cp.Variable()
+        a = make()
+        b = make()
+        prob = cp.Problem(cp.Minimize(a * b))
+    """) == [(7, "nonconvex-objective")]
+
+
+def test_loops_catch_sign_flips_in_accumulation(tmp_path):
+    # After one pass obj = x[t]^2 (convex); after two, -x[t1]^2 + x[t2]^2 (not convex).
+    assert _rules(tmp_path, """
+        import cvxpy as cp
+        x = cp.Variable(4)
+        obj = 0
+        for t in range(4):
+            obj = -obj + cp.square(x[t])
+        prob = cp.Problem(cp.Minimize(obj))
+    """) == [(7, "nonconvex-objective")]
+
+
+def test_two_comprehensions_do_not_cancel(tmp_path):
+    # Different index sets: the difference of the two sums is not constant (nor convex).
+    assert _rules(tmp_path, """
+        import cvxpy as cp
+        x = cp.Variable(6)
+        A, B = [0, 1, 2], [3, 4, 5]
+        obj = sum(cp.square(x[i]) for i in A) - sum(cp.square(x[i]) for i in B)
+        prob = cp.Problem(cp.Minimize(obj))
+    """) == [(6, "nonconvex-objective")]
+
+
+def test_huge_literals_do_not_hang(tmp_path):
+    assert _rules(tmp_path, """
+        import cvxpy as cp
+        x = cp.Variable(2)
+        big = 10**10**10
+        prob = cp.Problem(cp.Minimize(big * cp.norm(x) + 1e308 * cp.sum(x)), [x <= 1e400])
+    """) == []
+
+
+def test_star_import_and_alias_styles(tmp_path):
+    assert _rules(tmp_path, """
+        from cvxpy import *
+        import cvxpy
+        from cvxpy import norm as N
+        x = Variable(3)
+        y = cvxpy.Variable(3)
+        prob = Problem(Minimize(N(x, 1) - norm(y)), [sum(x) == 1])
+    """) == [(7, "nonconvex-objective")]
+
+
+def test_a_local_name_shadowing_the_library_is_not_the_library(tmp_path):
+    assert _rules(tmp_path, """
+        import cvxpy as cp
+        def norm(v):
+            return v
+        x = cp.Variable(3)
+        prob = cp.Problem(cp.Minimize(cp.sum(x)), [norm(x) >= 1])
+    """) == []
+
+
+def test_gp_mode_is_skipped_with_a_note(tmp_path):
+    assert _rules(tmp_path, """
+        import cvxpy as cp
+        h = cp.Variable(pos=True)
+        w = cp.Variable(pos=True)
+        prob = cp.Problem(cp.Maximize(h * w), [h * w**2 <= 40])
+        prob.solve(gp=True)
+    """) == [(6, "model-skipped")]
+
+
+@pytest.mark.parametrize("constraint, rule", [
+    ("cp.norm(x) <= 1", None),
+    ("cp.norm(x) >= 1", "nonconvex-inequality"),
+    ("1 >= cp.norm(x)", None),
+    ("cp.log(x[0]) >= 1", None),
+    ("cp.log(x[0]) <= 1", "nonconvex-inequality"),
+    ("cp.square(x[0]) == 1", "nonaffine-equality"),
+    ("2 * x[0] + 1 == x[1]", None),
+    ("x[0] * x[1] <= 1", "nonconvex-inequality"),
+    ("cp.SOC(x[0], x[1:])", None),
+    ("cp.SOC(cp.square(x[0]), x[1:])", "nonconvex-inequality"),
+])
+def test_constraint_directions(tmp_path, constraint, rule):
+    found = _rules(tmp_path, f"""
+        import cvxpy as cp
+        x = cp.Variable(3)
+        prob = cp.Problem(cp.Minimize(cp.sum(x)), [{constraint}])
+    """)
+    assert found == ([] if rule is None else [(4, rule)])
