@@ -66,6 +66,7 @@ class ModelAnalysis:
         )
         self._memo: dict[Any, Analysis] = {}
         self._judged: dict[int, list[Judgement]] = {}
+        self._shared: dict[str, object] = {}
 
     def analyse(self, expr) -> Analysis:
         hit = self._memo.get(expr)
@@ -73,6 +74,12 @@ class ModelAnalysis:
             hit = analyse(expr, self.facts, self.budget)
             self._memo[expr] = hit
         return hit
+
+    def shared(self, key: str, compute):
+        """A per-model result several rules read (computed on first use, then reused)."""
+        if key not in self._shared:
+            self._shared[key] = compute()
+        return self._shared[key]
 
     def has_variables(self, expr) -> bool:
         return isinstance(expr, sympy.Basic) and bool(expr.free_symbols & self.facts.variables)

@@ -43,7 +43,7 @@ def test_every_branch_reaching_the_objective_is_analysed(tmp_path):
             return cp.Problem(cp.Minimize(loss))
     """))
     findings = check_file(str(path)).findings
-    assert [(f.site.line, f.rule) for f in findings] == [(9, "nonconvex-objective")]
+    assert [(f.site.line, f.rule) for f in findings] == [(9, "weight-sign")]
     assert "line 8" in findings[0].message          # the branch that fails is named
 
 
@@ -61,7 +61,8 @@ def test_a_factory_called_twice_makes_two_variables(tmp_path):
 
 
 def test_loops_catch_sign_flips_in_accumulation(tmp_path):
-    # After one pass obj = x[t]^2 (convex); after two, -x[t1]^2 + x[t2]^2 (not convex).
+    # After one pass obj = x[t]^2 (convex); after two, -x[t1]^2 + x[t2]^2 (not convex: one weight
+    # of the wrong sign).
     assert _rules(tmp_path, """
         import cvxpy as cp
         x = cp.Variable(4)
@@ -69,7 +70,7 @@ def test_loops_catch_sign_flips_in_accumulation(tmp_path):
         for t in range(4):
             obj = -obj + cp.square(x[t])
         prob = cp.Problem(cp.Minimize(obj))
-    """) == [(7, "nonconvex-objective")]
+    """) == [(7, "weight-sign")]
 
 
 def test_two_comprehensions_do_not_cancel(tmp_path):
@@ -80,7 +81,7 @@ def test_two_comprehensions_do_not_cancel(tmp_path):
         A, B = [0, 1, 2], [3, 4, 5]
         obj = sum(cp.square(x[i]) for i in A) - sum(cp.square(x[i]) for i in B)
         prob = cp.Problem(cp.Minimize(obj))
-    """) == [(6, "nonconvex-objective")]
+    """) == [(6, "weight-sign")]
 
 
 def test_huge_literals_do_not_hang(tmp_path):
@@ -100,7 +101,7 @@ def test_star_import_and_alias_styles(tmp_path):
         x = Variable(3)
         y = cvxpy.Variable(3)
         prob = Problem(Minimize(N(x, 1) - norm(y)), [sum(x) == 1])
-    """) == [(7, "nonconvex-objective")]
+    """) == [(7, "weight-sign")]
 
 
 def test_a_local_name_shadowing_the_library_is_not_the_library(tmp_path):
