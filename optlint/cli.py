@@ -2,15 +2,20 @@
 
 - 0: no finding at or above the failing severity (``--fail-on``, default ``warning``);
 - 1: at least one finding at or above it;
-- 2: usage error (unknown option, missing path, unknown rule id).
+- 2: usage error (unknown option, missing path, unknown rule id), a configuration error (file,
+  key and what was expected), an unreadable baseline, a failed git query or a broken plugin.
 
-``optlint check PATH...`` checks files and directories; ``optlint rules`` lists the rules;
-``optlint explain RULE`` prints a rule's rationale, reference and examples.
+``optlint check PATH...`` checks files and directories; ``optlint baseline PATH...`` writes the
+current findings to a baseline file; ``optlint rules`` lists the rules; ``optlint explain RULE``
+prints a rule's rationale, reference and examples. Command-line options override the
+``[tool.optlint]`` configuration (``optlint.config``).
 """
 
 from __future__ import annotations
 
 import argparse
+import difflib
+import os
 import sys
 
 from optlint import __version__
@@ -32,14 +37,20 @@ def build_parser() -> argparse.ArgumentParser:
     sub = parser.add_subparsers(dest="command", parser_class=_Parser)
 
     check = sub.add_parser("check", help="check files and directories")
-    check.add_argument("paths", nargs="*", default=["."], help="files or directories (default: .)")
-    check.add_argument("--format", choices=("text", "json"), default="text", help="output format")
-    check.add_argument("--fail-on", choices=("error", "warning", "note"), default="warning",
-                       help="lowest severity that makes the exit code 1 (default: warning)")
-    check.add_argument("--exclude", action="append", default=[], metavar="GLOB",
-                       help="skip paths matching GLOB (repeatable)")
+    _run_options(check)
+    check.add_argument("--format", choices=("text", "json", "sarif"), default="text",
+                       help="output format (sarif: SARIF 2.1.0 for code-review annotations)")
+    check.add_argument("--baseline", metavar="FILE", help="report only findings not in this baseline file")
+    check.add_argument("--no-baseline", action="store_true", help="ignore the baseline named in the configuration")
     check.add_argument("--quiet", action="store_true", help="print only the summary line (text format)")
     check.add_argument("--no-color", action="store_true", help="plain text even on a terminal")
+    check.add_argument("--no-progress", action="store_true", help="no progress bar, even on a terminal")
+
+    base = sub.add_parser("baseline", help="write the current findings to a baseline file")
+    _run_options(base)
+    base.add_argument("--output", "-o", metavar="FILE",
+                      help="baseline file to write (default: the configuration's `baseline`, else "
+                           "optlint-baseline.json in the project root)")
 
     rules = sub.add_parser("rules", help="list the rules with their default severity")
     rules.add_argument("--format", choices=("text", "markdown"), default="text",
@@ -49,13 +60,33 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _run_options(p: argparse.ArgumentParser) -> None:
+    p.add_argument("paths", nargs="*", default=["."], help="files or directories (default: .)")
+    p.add_argument("--fail-on", choices=("error", "warning", "note"), default=None,
+                   help="lowest severity that makes the exit code 1 (default: the configuration's, else warning)")
+    p.add_argument("--exclude", action="append", default=[], metavar="GLOB",
+                   help="skip paths matching GLOB (repeatable; added to the configuration's)")
+    p.add_argument("--include", action="append", default=[], metavar="GLOB",
+                   help="check only files matching GLOB (repeatable; replaces the configuration's)")
+    p.add_argument("--severity", action="append", default=[], metavar="RULE=LEVEL",
+                   help="set a rule's severity: error, warning, note or off (repeatable)")
+    p.add_argument("--dialect", action="append", default=[], metavar="NAME",
+                   help="enable only these dialects (repeatable; replaces the configuration's)")
+    p.add_argument("--config", metavar="FILE", help="read [tool.optlint] from FILE instead of the nearest pyproject.toml")
+    p.add_argument("--no-config", action="store_true", help="use no configuration file")
+    p.add_argument("--changed-since", metavar="REV",
+                   help="check only files that differ from the git revision REV (and untracked ones)")
+    p.add_argument("--no-accept-comments", action="store_true",
+                   help="ignore inline `# optlint: accept` comments (report everything)")
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = build_parser()
     try:
         args = parser.parse_args(argv)
     except SystemExit as exc:
         return int(exc.code or 0)
-    if args.command == "check":
+    if args.command in ("check", "baseline"):
         return cmd_check(args)
     if args.command == "rules":
         return cmd_rules(args.format)
@@ -65,36 +96,145 @@ def main(argv: list[str] | None = None) -> int:
     return EXIT_USAGE
 
 
-def cmd_check(args) -> int:
-    from optlint.discover import discover
-    from optlint.engine import check_file, fails
+class UsageError(Exception):
+    pass
 
-    files, problems = discover(args.paths, tuple(args.exclude))
+
+def _prepare(args):
+    """(config, Options, files, path problems) for a check or baseline run, or UsageError."""
+    from optlint.config import ConfigError, find_config, load_config
+    from optlint.dialects import DIALECT_MODULES
+    from optlint.discover import ChangedFilesError, changed_files, discover
+    from optlint.engine import Options
+    from optlint.plugins import PluginError, registry
+
+    try:
+        rule_ids = list(registry())
+    except PluginError as exc:
+        raise UsageError(str(exc))
+    dialects = list(DIALECT_MODULES)
+    try:
+        if args.no_config:
+            path = None
+        elif args.config:
+            if not os.path.isfile(args.config):
+                raise UsageError(f"{args.config}: configuration file not found")
+            path = args.config
+        else:
+            path = find_config(args.paths)
+        config = load_config(path, rule_ids, dialects)
+    except ConfigError as exc:
+        raise UsageError(f"configuration error: {exc.file}: key `{exc.key}`: expected {exc.expected}")
+    forced = {}
+    for item in args.severity:
+        rule, _, level = item.partition("=")
+        if rule not in rule_ids:
+            near = difflib.get_close_matches(rule, rule_ids, n=1)
+            raise UsageError(f"--severity {item}: unknown rule {rule!r}"
+                             + (f" (did you mean {near[0]}?)" if near else ""))
+        if level not in ("error", "warning", "note", "off"):
+            raise UsageError(f"--severity {item}: expected RULE=LEVEL with LEVEL error, warning, note or off")
+        forced[rule] = level
+    for name in args.dialect:
+        if name not in dialects:
+            raise UsageError(f"--dialect {name}: unknown dialect; known: {', '.join(dialects)}")
+    options = Options(
+        severities=config.severity, dialects=tuple(args.dialect) or config.dialects,
+        dialect_severities=config.dialect_severity, overrides=config.overrides,
+        command_line_severities=forced, intended=config.intended, atoms=config.atoms,
+        assumptions=config.assumptions, root=config.root, honour_acceptances=not args.no_accept_comments)
+    only = None
+    if args.changed_since is not None:
+        try:
+            only = changed_files(args.changed_since, cwd=config.root if config.file else None)
+        except ChangedFilesError as exc:
+            raise UsageError(f"--changed-since: {exc}")
+    files, problems = discover(args.paths, config.exclude + tuple(args.exclude),
+                               tuple(args.include) or config.include, config.root, only)
+    return config, options, files, problems
+
+
+def cmd_check(args) -> int:
+    from optlint.engine import check_file, fails
+    from optlint.policy import BaselineError, filter_baseline, read_baseline, write_baseline
+
+    try:
+        config, options, files, problems = _prepare(args)
+    except UsageError as exc:
+        sys.stderr.write(f"optlint: {exc}\n")
+        return EXIT_USAGE
     if problems and not files:
         for path, message in problems:
             sys.stderr.write(f"optlint: {path}: {message}\n")
         return EXIT_USAGE
-    results = [check_file(path) for path in files]
+    baseline_path = None
+    if args.command == "check" and not args.no_baseline:
+        baseline_path = args.baseline or config.baseline
+    entries = None
+    if baseline_path:
+        try:
+            entries = read_baseline(baseline_path)
+        except BaselineError as exc:
+            sys.stderr.write(f"optlint: {exc}\n")
+            return EXIT_USAGE
+
+    results = _run(files, options, check_file, args)
     skipped = sum(1 for r in results if not r.checked)
     checked = [r for r in results if r.checked]
+    if args.command == "baseline":
+        target = args.output or config.baseline or os.path.join(config.root, "optlint-baseline.json")
+        n = write_baseline(target, checked, options.root)
+        sys.stdout.write(f"optlint: wrote {n} finding{'s' if n != 1 else ''} to {target}\n")
+        return EXIT_USAGE if problems else EXIT_OK
+
+    stats = {"accepted_inline": sum(r.accepted for r in checked)}
+    if entries is not None:
+        matched, stale = filter_baseline(checked, entries)
+        stats["baseline"] = {"file": baseline_path, "matched": matched, "unmatched_entries": stale}
+    findings = [f for r in checked for f in r.findings]
+    fail_on = args.fail_on or config.fail_on or "warning"
+    failed = fails(findings, fail_on)
     if args.format == "json":
         from optlint.report.json_report import render
 
-        sys.stdout.write(render(checked, skipped, problems) + "\n")
+        sys.stdout.write(render(checked, skipped, problems, stats) + "\n")
+    elif args.format == "sarif":
+        from optlint.report.sarif import render
+
+        sys.stdout.write(render(checked, problems, stats, options.root, success=not problems) + "\n")
     else:
         from optlint.report.text import make_console, render
 
-        render(make_console(sys.stdout, args.no_color), checked, skipped, problems, args.quiet)
-    findings = [f for r in checked for f in r.findings]
+        render(make_console(sys.stdout, args.no_color), checked, skipped, problems, args.quiet, stats)
     if problems:
         return EXIT_USAGE
-    return EXIT_FINDINGS if fails(findings, args.fail_on) else EXIT_OK
+    return EXIT_FINDINGS if failed else EXIT_OK
+
+
+def _run(files, options, check_file, args):
+    """Check every file; a progress bar on stderr when it is a terminal and the run is long."""
+    from optlint.report.text import PROGRESS_MIN_FILES, progress_console
+
+    console = None
+    if not getattr(args, "no_progress", False) and not getattr(args, "quiet", False) \
+            and len(files) >= PROGRESS_MIN_FILES:
+        console = progress_console(sys.stderr, getattr(args, "no_color", False))
+    if console is None:
+        return [check_file(path, options) for path in files]
+    from optlint.report.text import with_progress
+
+    return with_progress(console, files, lambda path: check_file(path, options))
 
 
 def cmd_rules(fmt: str = "text") -> int:
-    from optlint.rules import all_rules, markdown_table
+    from optlint.plugins import PluginError, registry
+    from optlint.rules import markdown_table
 
-    rules = all_rules()
+    try:
+        rules = registry()
+    except PluginError as exc:
+        sys.stderr.write(f"optlint: {exc}\n")
+        return EXIT_USAGE
     if fmt == "markdown":
         sys.stdout.write(markdown_table())
         return EXIT_OK
@@ -105,11 +245,13 @@ def cmd_rules(fmt: str = "text") -> int:
 
 
 def cmd_explain(rule_id: str) -> int:
-    import difflib
+    from optlint.plugins import PluginError, registry
 
-    from optlint.rules import all_rules
-
-    rules = all_rules()
+    try:
+        rules = registry()
+    except PluginError as exc:
+        sys.stderr.write(f"optlint: {exc}\n")
+        return EXIT_USAGE
     rule = rules.get(rule_id)
     if rule is None:
         near = difflib.get_close_matches(rule_id, list(rules), n=1)

@@ -5,7 +5,10 @@ respected (the subset of the format that real repositories use: comments, blank 
 negation, trailing ``/`` for directories, leading ``/`` or an inner ``/`` for anchored patterns,
 ``*``, ``?``, ``[...]`` and ``**``). Directories that never hold project sources (``.git``, virtual
 environments, caches) are skipped. A file named explicitly is always checked, whatever its suffix
-or ignore status. Symlinked directories are not followed, so a link loop cannot trap the walk.
+or ignore status, but ``--exclude``/``--include`` and the configuration's globs apply to it (so a
+pre-commit run honours them). Symlinked directories are not followed, so a link loop cannot trap
+the walk. Changed-files mode asks git (an argument list, never a shell string; the revision is
+validated first) which files differ from a revision and keeps only those.
 """
 
 from __future__ import annotations
@@ -13,7 +16,9 @@ from __future__ import annotations
 import fnmatch
 import os
 import re
+import subprocess
 from dataclasses import dataclass
+from functools import lru_cache
 
 SUFFIXES = (".py", ".ipynb")
 ALWAYS_SKIPPED_DIRS = frozenset({
@@ -65,6 +70,21 @@ def _glob_to_regex(pattern: str) -> str:
     return "".join(out)
 
 
+@lru_cache(maxsize=256)
+def _project_glob(pattern: str) -> re.Pattern[str]:
+    anchored = "/" in pattern.rstrip("/")
+    body = _glob_to_regex(pattern.strip("/"))
+    return re.compile(("^" if anchored else r"^(?:.*/)?") + body + "$")
+
+
+def glob_match(pattern: str, relpath: str) -> bool:
+    """A project glob (relative to the project root; ``**`` spans directories; without a ``/`` it
+    matches a name at any depth) against a root-relative POSIX path or any of its directories."""
+    regex = _project_glob(pattern)
+    parts = relpath.split("/")
+    return any(regex.match("/".join(parts[:i])) for i in range(len(parts), 0, -1))
+
+
 def parse_gitignore(text: str) -> list[IgnoreRule]:
     rules = []
     for raw in text.splitlines():
@@ -108,25 +128,42 @@ def _read_gitignore(directory: str) -> list[IgnoreRule]:
         return []
 
 
-def discover(paths: list[str], excludes: tuple[str, ...] = ()) -> tuple[list[str], list[tuple[str, str]]]:
-    """Return (files to check, [(path, problem)]) for the given paths, in a deterministic order."""
+def discover(paths: list[str], excludes: tuple[str, ...] = (), includes: tuple[str, ...] = (),
+             root: str | None = None, only: set[str] | None = None) -> tuple[list[str], list[tuple[str, str]]]:
+    """Return (files to check, [(path, problem)]) for the given paths, in a deterministic order.
+
+    ``excludes``/``includes`` are globs: matched as given (and against the base name, as on the command
+    line) and, relative to ``root``, as project globs. ``only`` (absolute paths) keeps just those files.
+    """
     files: list[str] = []
     problems: list[tuple[str, str]] = []
     seen: set[str] = set()
+    base = os.path.abspath(root or os.getcwd())
+
+    def rel(path: str) -> str:
+        return os.path.relpath(os.path.abspath(path), base).replace(os.sep, "/")
+
+    def matches(path: str, patterns: tuple[str, ...]) -> bool:
+        norm = path.replace(os.sep, "/")
+        return any(fnmatch.fnmatch(norm, pat) or fnmatch.fnmatch(os.path.basename(norm), pat)
+                   or glob_match(pat, rel(path)) for pat in patterns)
 
     def excluded(path: str) -> bool:
-        norm = path.replace(os.sep, "/")
-        return any(fnmatch.fnmatch(norm, pat) or fnmatch.fnmatch(os.path.basename(norm), pat) for pat in excludes)
+        return matches(path, excludes)
 
     def add(path: str) -> None:
         key = os.path.normpath(path)
-        if key not in seen:
-            seen.add(key)
-            files.append(path)
+        if key in seen or (includes and not matches(path, includes)):
+            return
+        if only is not None and os.path.abspath(path) not in only:
+            return
+        seen.add(key)
+        files.append(path)
 
     for given in paths:
         if os.path.isfile(given):
-            add(given)
+            if not excluded(given):
+                add(given)
             continue
         if not os.path.isdir(given):
             problems.append((given, "no such file or directory"))
@@ -134,6 +171,41 @@ def discover(paths: list[str], excludes: tuple[str, ...] = ()) -> tuple[list[str
         stack: list[tuple[str, list[IgnoreRule]]] = []
         _walk(given, "", stack, add, excluded, problems)
     return files, problems
+
+
+class ChangedFilesError(Exception):
+    pass
+
+
+# A revision as people write them (sha, branch, tag, HEAD~2, origin/main, main@{upstream}); never an
+# option: it may not start with "-".
+_REVISION = re.compile(r"^(?!-)[A-Za-z0-9._/~^@{}-]{1,200}$")
+
+
+def changed_files(revision: str, cwd: str | None = None) -> set[str]:
+    """Absolute paths of files that differ from ``revision`` in the work tree (committed or not),
+    plus untracked files git does not ignore. Deleted files are not listed."""
+    if not _REVISION.match(revision) or ".." in revision:
+        raise ChangedFilesError(f"{revision!r} is not a revision name (a commit, branch or tag such as "
+                                f"HEAD~1, origin/main or a commit id)")
+
+    def git(*args: str) -> str:
+        try:
+            proc = subprocess.run(["git", *args], cwd=cwd, capture_output=True, text=True, timeout=60)
+        except (OSError, subprocess.TimeoutExpired) as exc:
+            raise ChangedFilesError(f"cannot run git: {exc}")
+        if proc.returncode != 0:
+            raise ChangedFilesError(proc.stderr.strip() or f"git {args[0]} failed")
+        return proc.stdout
+
+    top = git("rev-parse", "--show-toplevel").strip()
+    try:
+        git("rev-parse", "--verify", "--quiet", "--end-of-options", revision + "^{commit}")
+    except ChangedFilesError:
+        raise ChangedFilesError(f"unknown revision {revision!r} in the repository at {top}")
+    names = git("diff", "--name-only", "-z", "--diff-filter=ACMRT", revision, "--").split("\0")
+    names += git("ls-files", "-z", "--others", "--exclude-standard").split("\0")
+    return {os.path.abspath(os.path.join(top, n)) for n in names if n}
 
 
 def _walk(root, rel_dir, stack, add, excluded, problems) -> None:

@@ -4,11 +4,19 @@ Per file: read bytes -> prefilter (which dialects may be present) -> decode / no
 libcst parse -> recognise (dialect -> Model IR) -> analyse -> rules -> superseded findings dropped
 -> severities applied. A file that cannot be read, decoded or parsed yields one finding and the run
 goes on; an unexpected exception inside a stage yields an ``internal-error`` finding for that file.
-sympy is imported only when a file passes the prefilter.
+sympy is imported only when a file passes the prefilter. After the rules, the policy stage
+(``optlint.policy``) applies the project's severities, intended non-convexity and inline
+acceptances, and fingerprints each finding for the baseline and SARIF.
+
+Declared atoms and sign assumptions from the configuration travel as data on ``Options.atoms`` and
+``Options.assumptions``; a dialect whose ``recognise`` accepts an ``options`` keyword receives the
+``Options`` of the run (``recognise(wrapper, path, options=options)``), one that does not is
+called as before.
 """
 
 from __future__ import annotations
 
+import inspect
 import os
 import traceback
 from dataclasses import dataclass, field
@@ -22,8 +30,31 @@ MAX_FILE_BYTES = 8 * 1024 * 1024
 
 @dataclass
 class Options:
+    """What a run was configured with (``optlint.config`` fills it from pyproject.toml and the CLI)."""
+
     severities: dict[str, str] = field(default_factory=dict)  # rule id -> severity or "off"
     dialects: tuple[str, ...] | None = None  # None: all
+    dialect_severities: dict[str, dict[str, str]] = field(default_factory=dict)  # dialect -> rule -> level
+    overrides: list = field(default_factory=list)  # optlint.config.Override, applied in order
+    command_line_severities: dict[str, str] = field(default_factory=dict)  # beat everything in the file
+    intended: list = field(default_factory=list)  # optlint.config.Intended
+    # Declared atoms: qualified function name -> optlint.config.DeclaredAtom (curvature, sign,
+    # monotonicity per argument). For recognisers to consume; the engine only carries them.
+    atoms: dict = field(default_factory=dict)
+    # Declared signs of data names: "positive" | "nonnegative" | "nonpositive" | "negative" -> name
+    # globs. For recognisers to consume (see ``assumed_sign``); the engine only carries them.
+    assumptions: dict[str, tuple[str, ...]] = field(default_factory=dict)
+    root: str | None = None  # project root: globs and fingerprints are relative to it (None: cwd)
+    honour_acceptances: bool = True  # inline ``# optlint: accept`` comments
+
+    def assumed_sign(self, name: str) -> str | None:
+        """The sign the configuration declares for a data name, or None."""
+        import fnmatch
+
+        for sign, patterns in self.assumptions.items():
+            if any(fnmatch.fnmatchcase(name, p) for p in patterns):
+                return sign
+        return None
 
 
 @dataclass
@@ -33,6 +64,8 @@ class FileResult:
     checked: bool  # False: skipped by the prefilter (no model library imported)
     lines: list[str] = field(default_factory=list)  # source lines, for the text report
     cell_map: list | None = None
+    fingerprints: list[str] = field(default_factory=list)  # one per finding, same order
+    accepted: int = 0  # findings accepted by inline comments
 
 
 def _site(path: str, line: int, column: int = 1) -> Site:
@@ -42,9 +75,14 @@ def _site(path: str, line: int, column: int = 1) -> Site:
 def check_file(path: str, options: Options | None = None) -> FileResult:
     options = options or Options()
     try:
-        return _check_file(path, options)
+        result = _check_file(path, options)
     except Exception as exc:  # the engine's promise: one broken file never stops the run
-        return FileResult(path, [_internal(path, exc)], True)
+        result = FileResult(path, [_internal(path, exc)], True)
+    if len(result.fingerprints) != len(result.findings):
+        from optlint.policy import fingerprints
+
+        result.fingerprints = fingerprints(path, result.findings, None, options.root)
+    return result
 
 
 def _internal(path: str, exc: BaseException) -> Finding:
@@ -62,14 +100,14 @@ def _check_file(path: str, options: Options) -> FileResult:
     try:
         size = os.path.getsize(path)
         if size > MAX_FILE_BYTES:
-            return FileResult(path, [Finding("file-error", _site(path, 1),
-                                             f"file is larger than {MAX_FILE_BYTES // (1024 * 1024)} MiB; not checked",
-                                             "warning", {"bytes": size})], True)
+            return _early(path, [Finding("file-error", _site(path, 1),
+                                         f"file is larger than {MAX_FILE_BYTES // (1024 * 1024)} MiB; not checked",
+                                         "warning", {"bytes": size})], options)
         with open(path, "rb") as fh:
             data = fh.read()
     except OSError as exc:
-        return FileResult(path, [Finding("file-error", _site(path, 1),
-                                         f"cannot read file: {exc.strerror or exc}", "error")], True)
+        return _early(path, [Finding("file-error", _site(path, 1),
+                                     f"cannot read file: {exc.strerror or exc}", "error")], options)
 
     dialects = scan_dialects(path, data)
     if options.dialects is not None:
@@ -82,16 +120,24 @@ def _check_file(path: str, options: Options) -> FileResult:
     try:
         source = read_source(path, data)
     except SourceError as exc:
-        return FileResult(path, [Finding("syntax-error", _site(path, exc.line, exc.column), str(exc))], True)
+        return _early(path, [Finding("syntax-error", _site(path, exc.line, exc.column), str(exc), "error")], options)
 
-    findings, models = _parse_and_recognise(path, source, dialects)
+    findings, models = _parse_and_recognise(path, source, dialects, options)
+    dialect_of: dict[int, str] = {}
     if models:
-        findings.extend(_run_rules(models))
-    findings = _finalise(findings, options, source)
-    return FileResult(path, findings, True, source.lines, source.cell_map)
+        findings.extend(_run_rules(models, dialect_of))
+    return _finalise(path, findings, dialect_of, options, source)
 
 
-def _parse_and_recognise(path, source, dialects):
+def _early(path: str, findings: list[Finding], options: Options) -> FileResult:
+    """A file that never reached the parser: project severities apply (no source, so no acceptances)."""
+    from optlint import policy
+
+    out, _ = policy.apply(path, findings, {}, None, options, {})
+    return FileResult(path, out, True, fingerprints=policy.fingerprints(path, out, None, options.root))
+
+
+def _parse_and_recognise(path, source, dialects, options):
     import libcst as cst
 
     from optlint.dialects import load
@@ -107,7 +153,11 @@ def _parse_and_recognise(path, source, dialects):
     wrapper = cst.MetadataWrapper(module, unsafe_skip_copy=True)
     models = []
     for name in dialects:
-        models.extend(load(name).recognise(wrapper, path))
+        recognise = load(name).recognise
+        if "options" in inspect.signature(recognise).parameters:
+            models.extend(recognise(wrapper, path, options=options))
+        else:
+            models.extend(recognise(wrapper, path))
     return [], models
 
 
@@ -127,48 +177,56 @@ def _python_syntax_error(text: str) -> tuple[int, int, str] | None:
     return None
 
 
-def _run_rules(models) -> list[Finding]:
+def _run_rules(models, dialect_of: dict[int, str]) -> list[Finding]:
     from optlint.analysis import ModelAnalysis
-    from optlint.rules import all_rules
+    from optlint.plugins import registry
 
     findings: list[Finding] = []
     for model in models:
         analysis = ModelAnalysis(model)
-        for rule in all_rules().values():
+        for rule in registry().values():
             if rule.check is None:
                 continue
             try:
-                findings.extend(rule.check(model, analysis))
+                produced = list(rule.check(model, analysis))
             except RecursionError as exc:
-                findings.append(_internal(model.path, exc))
+                produced = [_internal(model.path, exc)]
+            for f in produced:
+                dialect_of[id(f)] = model.dialect
+                remark = model.remarks.get((f.site.line, f.site.column, f.rule))
+                if remark:  # a recogniser's word on this site (e.g. scipy's 'ineq' sign convention)
+                    f.message = f"{f.message}. {remark}"
+                    f.evidence["dialect_note"] = remark
+            findings.extend(produced)
     return findings
 
 
-def _finalise(findings: list[Finding], options: Options, source) -> list[Finding]:
-    from optlint.rules import all_rules
+def _finalise(path: str, findings: list[Finding], dialect_of: dict[int, str], options: Options,
+              source) -> FileResult:
+    from optlint import policy
+    from optlint.plugins import registry
 
-    rules = all_rules()
+    rules = registry()
     by_site: dict[tuple, set[str]] = {}
     for f in findings:
         by_site.setdefault((f.site.line, f.site.column), set()).add(f.rule)
-    out = []
+    kept = []
     for f in findings:
-        rule = rules.get(f.rule)
         here = by_site[(f.site.line, f.site.column)]
         if any(f.rule in rules[o].supersedes for o in here if o in rules and o != f.rule):
             continue
-        severity = options.severities.get(f.rule) or (rule.severity if rule else f.severity)
-        if severity == "off":
-            continue
-        f.severity = severity
-        if source is not None and source.cell_map is not None:
+        kept.append(f)
+    facts = policy.SourceFacts(source.text)
+    out, accepted = policy.apply(path, kept, dialect_of, facts, options, rules)
+    for f in out:
+        if source.cell_map is not None:
             cell, line = source.locate(f.site.line)
             if cell is not None:
                 f.evidence.setdefault("cell", cell)
                 f.evidence.setdefault("cell_line", line)
-        out.append(f)
     out.sort(key=Finding.sort_key)
-    return out
+    return FileResult(path, out, True, source.lines, source.cell_map,
+                      policy.fingerprints(path, out, facts, options.root), accepted)
 
 
 def fails(findings: list[Finding], threshold: str) -> bool:

@@ -139,11 +139,12 @@ def test_rules_and_explain():
     proc = run_cli("rules")
     assert proc.returncode == 0
     listed = {line.split()[0] for line in proc.stdout.splitlines()}
-    for rule in ("nonconvex-objective", "nonaffine-equality", "nonconvex-inequality", "strict-inequality",
-                 "unknown-curvature", "syntax-error", "model-skipped"):
-        assert rule in listed
+    assert {"nonconvex-objective", "nonaffine-equality", "nonconvex-inequality", "strict-inequality",
+            "unknown-curvature", "syntax-error", "model-skipped", "nonconvex-penalty", "weight-sign",
+            "weight-sign-unknown", "degenerate-constraint"} <= listed
+    for rule in sorted(listed):
         text = run_cli("explain", rule).stdout
-        assert "Reference:" in text and "Flagged:" in text and "Fine:" in text
+        assert text.startswith(rule) and "Reference:" in text and "Flagged:" in text and "Fine:" in text
     bad = run_cli("explain", "nonconvex-objectiv")
     assert bad.returncode == 2 and "did you mean nonconvex-objective" in bad.stderr
 

@@ -2,8 +2,10 @@
 
 Layout (our own): a file heading with its count, then for each finding the source line with its
 number, and beneath it the severity, the rule id and the message, and the failing step of the
-derivation. Colour only on a terminal and never when NO_COLOR is set (rich honours both); every
-piece of user text is passed as plain text, never as markup.
+derivation; then a count per rule and the summary line (inline acceptances and baseline matches
+included). Colour only on a terminal and never when NO_COLOR is set (rich honours both); every
+piece of user text is passed as plain text, never as markup. A progress bar goes to stderr, only
+when it is a terminal and the run has at least ``PROGRESS_MIN_FILES`` files, and vanishes after.
 """
 
 from __future__ import annotations
@@ -14,20 +16,45 @@ from rich.console import Console
 from rich.text import Text
 
 STYLE = {"error": "bold red", "warning": "yellow", "note": "cyan"}
+PROGRESS_MIN_FILES = 20
 
 
 def make_console(stream=None, no_color: bool = False) -> Console:
     return Console(file=stream, highlight=False, soft_wrap=True, no_color=no_color or None, emoji=False)
 
 
-def render(console: Console, results, files_skipped: int, problems, quiet: bool = False) -> None:
+def progress_console(stream, no_color: bool = False) -> Console | None:
+    """A console for the progress bar, or None when ``stream`` is not an interactive terminal."""
+    console = make_console(stream, no_color)
+    return console if console.is_terminal and not console.is_dumb_terminal else None
+
+
+def with_progress(console: Console, files: list[str], work) -> list:
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+
+    out = []
+    columns = (TextColumn("optlint"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn(),
+               TextColumn("{task.description}", markup=False))
+    with Progress(*columns, console=console, transient=True) as bar:
+        task = bar.add_task("", total=len(files))
+        for path in files:
+            bar.update(task, description=path[-60:])
+            out.append(work(path))
+            bar.advance(task)
+    return out
+
+
+def render(console: Console, results, files_skipped: int, problems, quiet: bool = False,
+           stats: dict | None = None) -> None:
     for path, message in problems:
         console.print(Text(f"{path}: {message}", style="red"))
     total = Counter()
+    by_rule = Counter()
     for result in results:
         if not result.findings:
             continue
         total.update(f.severity for f in result.findings)
+        by_rule.update(f.rule for f in result.findings)
         if quiet:
             continue
         n = len(result.findings)
@@ -38,7 +65,10 @@ def render(console: Console, results, files_skipped: int, problems, quiet: bool 
         for f in result.findings:
             _finding(console, result, f)
         console.print()
-    _summary(console, total, results, files_skipped)
+    if by_rule and not quiet:
+        for rule, n in sorted(by_rule.items(), key=lambda kv: (-kv[1], kv[0])):
+            console.print(Text(f"  {n:>4}  {rule}", style="dim"))
+    _summary(console, total, results, files_skipped, stats or {})
 
 
 def _finding(console: Console, result, f) -> None:
@@ -64,7 +94,7 @@ def _finding(console: Console, result, f) -> None:
                            style="dim"))
 
 
-def _summary(console: Console, total: Counter, results, files_skipped: int) -> None:
+def _summary(console: Console, total: Counter, results, files_skipped: int, stats: dict) -> None:
     checked = sum(1 for r in results if r.checked)
     n = sum(total.values())
     parts = [f"{total[s]} {s}{'s' if total[s] != 1 else ''}" for s in ("error", "warning", "note") if total[s]]
@@ -72,4 +102,13 @@ def _summary(console: Console, total: Counter, results, files_skipped: int) -> N
     line = Text("optlint: ", style="bold")
     line.append(found, style="bold red" if total["error"] else ("yellow" if n else "green"))
     line.append(f" · {checked} file{'s' if checked != 1 else ''} checked, {files_skipped} without models skipped")
+    if stats.get("accepted_inline"):
+        line.append(f" · {stats['accepted_inline']} accepted inline")
+    base = stats.get("baseline")
+    if base is not None:
+        line.append(f" · {base['matched']} in baseline")
+        if base["unmatched_entries"]:
+            n = base["unmatched_entries"]
+            line.append(f", {n} baseline entr{'ies' if n != 1 else 'y'} no longer match (rewrite with "
+                        f"`optlint baseline`)", style="yellow")
     console.print(line)
