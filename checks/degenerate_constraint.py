@@ -1,12 +1,5 @@
 """degenerate-constraint: a constraint with no strictly feasible point (Slater's condition fails)."""
 
-import sympy
-
-from optlint.calculus import Sign
-from optlint.calculus import functions as F
-from optlint.findings import Finding
-from optlint.printer import show
-
 ID = "degenerate-constraint"
 SEVERITY = "error"
 SUMMARY = "Constraint with no strictly feasible point (e.g. norm(x - a) <= 0), or infeasible on its face."
@@ -31,16 +24,18 @@ x = cp.Variable(3)
 constraints = [x == target]                    # or cp.norm(x - target, 2) <= 1e-3
 """
 
-_NONNEG_OF_AFFINE = (F.pnorm, F.sum_squares)
-
-
 def _affine_equivalent(analysis, g) -> str | None:
+    import sympy
+
+    from optlint.calculus import functions as F
+    from optlint.printer import show
+
     """For g = h(u) with h a norm, square, sum of squares or |.| of an affine u: the text of u == 0."""
     inner = g
     if isinstance(inner, sympy.Mul) and len(inner.args) == 2 and inner.args[0].is_Number and inner.args[0] > 0:
         inner = inner.args[1]
     u = None
-    if isinstance(inner, _NONNEG_OF_AFFINE):
+    if isinstance(inner, (F.pnorm, F.sum_squares)):
         u = inner.args[0]
     elif isinstance(inner, sympy.Abs):
         u = inner.args[0]
@@ -53,6 +48,10 @@ def _affine_equivalent(analysis, g) -> str | None:
 
 
 def check(model, analysis):
+    from optlint.calculus import Sign
+    from optlint.findings import Finding
+    from optlint.printer import show
+
     for con in model.constraints:
         if con.relation not in ("<=", "<", ">=", ">", "=="):
             continue

@@ -1,7 +1,5 @@
 """nonaffine-equality: an equality constraint whose sides differ by a non-affine expression."""
 
-from optlint.rulekit import failing_step, site_findings
-
 ID = "nonaffine-equality"
 SEVERITY = "error"
 SUMMARY = "Equality constraint that is not affine."
@@ -26,9 +24,13 @@ constraints = [cp.norm(x, 2) <= 1, cp.sum(x) == 1]
 
 
 def message(analysis, j) -> str:
+    from optlint.rulekit import failing_step
+
     return f"equality constraint is not affine ({j.result.curvature.value}): {failing_step(analysis, j)}"
 
 
 def check(model, analysis):
+    from optlint.rulekit import site_findings
+
     items = [c for c in model.constraints if c.relation == "=="]
     yield from site_findings(ID, analysis, items, lambda j: not j.unknown_only, message)

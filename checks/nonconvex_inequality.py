@@ -1,8 +1,5 @@
 """nonconvex-inequality: an inequality (or cone / semidefinite constraint) whose set is not convex."""
 
-from optlint.calculus import Curvature
-from optlint.rulekit import failing_step, site_findings
-
 ID = "nonconvex-inequality"
 SEVERITY = "error"
 SUMMARY = "Inequality whose feasible set is not convex (convex >= ..., concave <= ...)."
@@ -29,6 +26,9 @@ constraints = [cp.norm(x - [1, 2], 2) <= 0.5]
 
 
 def message(analysis, j) -> str:
+    from optlint.calculus import Curvature
+    from optlint.rulekit import failing_step
+
     con = j.item
     if con.relation in ("psd", "cone"):
         what = "semidefinite constraint" if con.relation == "psd" else "cone constraint"
@@ -47,5 +47,7 @@ def message(analysis, j) -> str:
 
 
 def check(model, analysis):
+    from optlint.rulekit import site_findings
+
     items = [c for c in model.constraints if c.relation in ("<=", ">=", "<", ">", "psd", "cone")]
     yield from site_findings(ID, analysis, items, lambda j: not j.unknown_only, message)

@@ -1,8 +1,5 @@
 """nonconvex-objective: a minimised objective that is not convex, or a maximised one not concave."""
 
-from optlint.calculus import Curvature
-from optlint.rulekit import failing_step, site_findings
-
 ID = "nonconvex-objective"
 SEVERITY = "error"
 SUMMARY = "Minimised objective not convex, or maximised objective not concave."
@@ -29,6 +26,9 @@ objective = cp.Minimize(cp.sum_squares(w) + 0.1 * cp.norm(w, 1))
 
 
 def message(analysis, j) -> str:
+    from optlint.calculus import Curvature
+    from optlint.rulekit import failing_step
+
     verb = "minimise" if j.want is Curvature.CONVEX else "maximise"
     wrong = j.result.curvature
     if wrong in (Curvature.CONVEX, Curvature.CONCAVE):
@@ -39,4 +39,6 @@ def message(analysis, j) -> str:
 
 
 def check(model, analysis):
+    from optlint.rulekit import site_findings
+
     yield from site_findings(ID, analysis, model.objectives, lambda j: not j.unknown_only, message)

@@ -1,9 +1,5 @@
 """nonconvex-penalty: a recognised non-convex penalty family inside a minimised objective."""
 
-from optlint import penalties
-from optlint.analysis import judgement_evidence
-from optlint.findings import Finding
-
 ID = "nonconvex-penalty"
 SEVERITY = "error"
 SUMMARY = "A non-convex penalty family (capped loss, log(1+r²), |r|^p with p<1, L0, min of convex) is minimised."
@@ -32,6 +28,10 @@ objective = cp.Minimize(cp.sum(cp.huber(r, 2.0)))
 
 
 def check(model, analysis):
+    from optlint import penalties
+    from optlint.analysis import judgement_evidence
+    from optlint.findings import Finding
+
     for hit in penalties.find(model, analysis):
         j = hit.judgement
         where = "minimised" if j.item.sense == "minimise" else "maximised (with a negative weight)"

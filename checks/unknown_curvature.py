@@ -1,7 +1,5 @@
 """unknown-curvature: a function with no known curvature decides whether the model is convex."""
 
-from optlint.rulekit import site_findings
-
 ID = "unknown-curvature"
 SEVERITY = "note"
 SUMMARY = "A function optlint cannot classify is applied to decision variables."
@@ -34,5 +32,7 @@ def message(analysis, j) -> str:
 
 
 def check(model, analysis):
+    from optlint.rulekit import site_findings
+
     items = list(model.objectives) + list(model.constraints)
     yield from site_findings(ID, analysis, items, lambda j: j.unknown_only, message)

@@ -1,7 +1,5 @@
 """weight-sign: a curved term whose weight has the wrong sign for the objective's sense."""
 
-from optlint import weights
-
 ID = "weight-sign"
 SEVERITY = "error"
 SUMMARY = "A convex or concave term has a weight of the wrong sign for the objective's sense."
@@ -32,6 +30,8 @@ objective = cp.Minimize(loss + 0.1 * cp.norm(w, 1))
 
 
 def check(model, analysis):
+    from optlint import weights
+
     for diagnosis in weights.diagnose(model, analysis):
         if diagnosis.wrong:
             yield diagnosis.finding(ID, analysis, "wrong")

@@ -1,7 +1,5 @@
 """weight-sign-unknown: a curved term whose weight has a sign nothing in the code establishes."""
 
-from optlint import weights
-
 ID = "weight-sign-unknown"
 SEVERITY = "warning"
 SUMMARY = "The sign of a weight on a convex or concave term is unknown, and it decides convexity."
@@ -32,6 +30,8 @@ def fit(X, y, lam):
 
 
 def check(model, analysis):
+    from optlint import weights
+
     for diagnosis in weights.diagnose(model, analysis):
         if diagnosis.unknown:
             yield diagnosis.finding(ID, analysis, "unknown")

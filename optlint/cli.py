@@ -78,6 +78,10 @@ def _run_options(p: argparse.ArgumentParser) -> None:
                    help="check only files that differ from the git revision REV (and untracked ones)")
     p.add_argument("--no-accept-comments", action="store_true",
                    help="ignore inline `# optlint: accept` comments (report everything)")
+    p.add_argument("--jobs", "-j", type=_positive_int, default=None, metavar="N",
+                   help="worker processes (default: the number of cores; output is the same for any N)")
+    p.add_argument("--no-cache", action="store_true",
+                   help="neither read nor write the result cache (.optlint_cache in the project root)")
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -211,19 +215,32 @@ def cmd_check(args) -> int:
     return EXIT_FINDINGS if failed else EXIT_OK
 
 
+def _positive_int(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number, got {text!r}")
+    if value < 1:
+        raise argparse.ArgumentTypeError("expected a number of at least 1")
+    return value
+
+
 def _run(files, options, check_file, args):
-    """Check every file; a progress bar on stderr when it is a terminal and the run is long."""
+    """Check every file (worker processes, result cache); a progress bar on a terminal for long runs."""
+    from optlint import runner
     from optlint.report.text import PROGRESS_MIN_FILES, progress_console
 
+    jobs = getattr(args, "jobs", None) or runner.default_jobs()
+    cache = None if getattr(args, "no_cache", False) else runner.Cache(options.root or os.getcwd(), options)
     console = None
     if not getattr(args, "no_progress", False) and not getattr(args, "quiet", False) \
             and len(files) >= PROGRESS_MIN_FILES:
         console = progress_console(sys.stderr, getattr(args, "no_color", False))
     if console is None:
-        return [check_file(path, options) for path in files]
+        return runner.run(files, options, jobs, cache)
     from optlint.report.text import with_progress
 
-    return with_progress(console, files, lambda path: check_file(path, options))
+    return with_progress(console, files, lambda on_result: runner.run(files, options, jobs, cache, on_result))
 
 
 def cmd_rules(fmt: str = "text") -> int:

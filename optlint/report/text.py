@@ -30,18 +30,19 @@ def progress_console(stream, no_color: bool = False) -> Console | None:
 
 
 def with_progress(console: Console, files: list[str], work) -> list:
+    """Run ``work(on_result)`` with a bar that advances each time a file's result arrives."""
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
 
-    out = []
     columns = (TextColumn("optlint"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn(),
                TextColumn("{task.description}", markup=False))
     with Progress(*columns, console=console, transient=True) as bar:
         task = bar.add_task("", total=len(files))
-        for path in files:
-            bar.update(task, description=path[-60:])
-            out.append(work(path))
+
+        def advance(result) -> None:
+            bar.update(task, description=result.path[-60:])
             bar.advance(task)
-    return out
+
+        return work(advance)
 
 
 def render(console: Console, results, files_skipped: int, problems, quiet: bool = False,

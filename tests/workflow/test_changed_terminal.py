@@ -55,7 +55,18 @@ def test_progress_bar_only_on_a_terminal(monkeypatch):
     stream = Tty()
     console = progress_console(stream)
     assert console is not None
-    done = with_progress(console, [f"f{i}.py" for i in range(25)], lambda p: p.upper())
+    from types import SimpleNamespace
+
+    files = [f"f{i}.py" for i in range(25)]
+
+    def work(on_result):
+        out = []
+        for p in files:
+            out.append(p.upper())
+            on_result(SimpleNamespace(path=p))
+        return out
+
+    done = with_progress(console, files, work)
     assert done == [f"F{i}.PY" for i in range(25)]
     assert "25/25" in stream.getvalue()
 
