@@ -26,6 +26,7 @@ from sympy.core.function import AppliedUndef
 
 from . import catalogue as cat
 from .catalogue import ArgInfo, Mono
+from .functions import ModelFunction
 from .lattice import Curvature, Sign, sign_product, sign_sum
 from .model import Analysis, Budget, Composition, Derivation, Facts, Link, satisfies
 
@@ -111,7 +112,7 @@ class _Walker:
                 self.unknown_names.setdefault(name, None)
             d, params = Derivation(node, CURV.UNKNOWN, Sign.UNKNOWN, "unknown-function",
                                    f"function '{name}' is unknown", _ds(kids), function_name=name), ()
-        elif node.func is sympy.Pow or node.func in cat._FIXED or isinstance(node, cat.F.ModelFunction):
+        elif node.func is sympy.Pow or node.func in cat.FIXED or isinstance(node, ModelFunction):
             d, params = self._atom(node, kids)
         elif isinstance(node, sympy.Function):
             d, params = Derivation(node, CURV.UNKNOWN, Sign.UNKNOWN, "unsupported-function",
@@ -120,8 +121,9 @@ class _Walker:
         else:
             d, params = _unsupported(node, kids), ()
         bad = any(k.bad for i, k in enumerate(kids) if i not in params)
-        if bad:
-            d.curvature, d.reason = CURV.UNKNOWN, "contains a complex, infinite or undefined number"
+        if bad:  # the value is not a real number, so no sign rule applies either
+            d.curvature, d.sign = CURV.UNKNOWN, Sign.UNKNOWN
+            d.reason = "contains a complex, infinite or undefined number"
         elif not has_var and isinstance(node, sympy.Expr):
             d.curvature, d.reason, d.composition = CURV.CONSTANT, None, None
             d.rule = "constant"
@@ -184,6 +186,9 @@ class _Walker:
         label = cat.label_of(node)
         rule = "elementwise-pow" if node.func is sympy.Pow else "atom"
         family = cat.family_of(node, infos, self._psd_kind)
+        if family is None:  # a vocabulary class the catalogue has no entry for yet
+            return Derivation(node, CURV.UNKNOWN, Sign.UNKNOWN, "unsupported-function",
+                              f"'{label}' is not in the atom catalogue", _ds(kids)), ()
         entries = cat.FAMILIES[family]
         first = entries[0]
         params = tuple(i for i in range(len(kids)) if first.mono(i) is Mono.PARAM)

@@ -270,10 +270,9 @@ TABLE: tuple[Entry, ...] = (
 FAMILIES: dict[str, tuple[Entry, ...]] = {}
 for _entry in TABLE:
     FAMILIES[_entry.family] = FAMILIES.get(_entry.family, ()) + (_entry,)
-BY_NAME: dict[str, Entry] = {e.name: e for e in TABLE}
 
 # Functions whose family does not depend on a parameter value.
-_FIXED: dict[type, str] = {
+FIXED: dict[type, str] = {
     sympy.exp: "exp", sympy.log: "log", sympy.Abs: "abs", sympy.Max: "maximum", sympy.Min: "minimum",
     F.vsum: "vsum", F.mean: "mean", F.cumsum: "cumsum", F.trace: "trace", F.reshape: "reshape",
     F.transpose: "transpose", F.stack: "stack", F.diff: "diff", F.matmul: "matmul", F.entr: "entr",
@@ -411,7 +410,7 @@ def family_of(node: sympy.Basic, args: Sequence[ArgInfo],
         if x.constant:
             return "quad_form:in-P"
         return "quad_form:unknown" if p.constant else "quad_form:both"
-    return _FIXED.get(func)
+    return FIXED.get(func)
 
 
 def _number_text(num: sympy.Number) -> str:

@@ -24,6 +24,11 @@ class ModelFunction(sympy.Function):
 
     dsl_name: str = ""
 
+    def _eval_evalf(self, prec):
+        # sympy would otherwise evaluate an atom numerically with mpmath's function of the same
+        # name (power, diff, log1p), whose meaning differs from the DSL's (and diff crashes).
+        return None
+
 
 def _atom(name: str, nargs: int | tuple[int, ...], dsl_name: str | None = None) -> type:
     cls = type(name, (ModelFunction,), {"nargs": nargs, "dsl_name": dsl_name or name})

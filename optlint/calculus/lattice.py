@@ -95,18 +95,6 @@ class Sign(enum.Enum):
     def is_nonpos(self) -> bool:
         return _POS not in self.classes
 
-    @property
-    def is_positive(self) -> bool:
-        return self is Sign.POSITIVE
-
-    @property
-    def is_negative(self) -> bool:
-        return self is Sign.NEGATIVE
-
-    @property
-    def is_nonzero(self) -> bool:
-        return _ZERO not in self.classes
-
     def negate(self) -> Sign:
         return Sign.from_classes(-c for c in self.classes)
 
@@ -124,11 +112,6 @@ class Sign(enum.Enum):
 
     def join(self, other: Sign) -> Sign:
         return Sign.from_classes(self.classes | other.classes)
-
-    def meet(self, other: Sign) -> Sign:
-        """Both facts hold; contradictory facts (empty meet) fall back to ``self``."""
-        both = self.classes & other.classes
-        return Sign.from_classes(both) if both else self
 
     @staticmethod
     def from_classes(classes: Iterable[int]) -> Sign:

@@ -193,9 +193,16 @@ def _number(expr) -> float:
 
 
 def evaluate(expr, env):
-    """Value of ``expr`` at ``env`` (symbol -> number/array); OutOfDomain off the domain."""
+    """Value of ``expr`` at ``env`` (symbol -> number/array); OutOfDomain off the domain.
+
+    Shape errors (sympy may fold v - v to the scalar 0 inside a vector grammar) and singular
+    solves also count as "not evaluable here": they are caught at the endpoints, before any claim.
+    """
     with np.errstate(all="ignore"):
-        return _finite(_eval(expr, env))
+        try:
+            return _finite(_eval(expr, env))
+        except (ValueError, IndexError, np.linalg.LinAlgError) as exc:
+            raise OutOfDomain from exc
 
 
 def _eval(expr, env):
@@ -234,6 +241,11 @@ def _eval(expr, env):
         return _finite(np.maximum.reduce(np.broadcast_arrays(*[_eval(a, env) for a in expr.args])))
     if isinstance(expr, sympy.Min):
         return _finite(np.minimum.reduce(np.broadcast_arrays(*[_eval(a, env) for a in expr.args])))
+    if fn is None and not expr.free_symbols:
+        # sympy rewrites some number combinations (sinh(1), ...); a closed number is just a number.
+        value = complex(expr.evalf(30))
+        _where(value.imag == 0, None)
+        return _finite(value.real)
     if fn is None:
         raise NotImplementedError(f"oracle has no implementation of {type(expr).__name__}")
     params = PARAMETER_POSITIONS.get(name, ())

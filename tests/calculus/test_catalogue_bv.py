@@ -158,3 +158,12 @@ def test_every_family_shares_one_sign_rule_and_cites_a_source():
     for entry in TABLE:
         assert "B&V 2004 §" in entry.source or "from memory" in entry.source, entry.name
         assert "§" not in entry.source or "from memory" in entry.source, entry.name
+
+
+def test_every_vocabulary_class_has_a_catalogue_entry():
+    for cls in F.ALL_ATOMS:
+        nargs = min(cls.nargs)
+        args = [sp.Symbol(f"a{i}") for i in range(nargs)]
+        result = analyse(cls(*args), Facts(variables=frozenset(args[:1])))
+        assert result.tree.rule not in ("unsupported-function", "internal-error"), cls.__name__
+

@@ -6,7 +6,8 @@ negative, unknown sign) as variables and as data, and constants of both signs. F
 other than UNKNOWN the independent numeric oracle (calculus_oracle, numpy only) searches for a
 violation of the convexity/concavity inequality or of domain convexity; zero violations is the only
 passing result. The run also asserts that a real share of verdicts is not UNKNOWN and that both
-convex and concave verdicts occur, so it cannot pass vacuously.
+convex and concave verdicts occur, so it cannot pass vacuously
+(at least 25% certified; measured 32-43%).
 
 500 examples by default; the long run is a separate command:
     OPTLINT_PROPERTY_EXAMPLES=5000 python -m pytest tests/calculus/test_property.py -q
@@ -57,24 +58,38 @@ def _constant(draw):
     return draw(st.sampled_from(NUMBERS + DATA))
 
 
+x, xp, xn = SCALAR_VARS[:3]
+v = VECTOR_VARS[0]
+# Small convex/concave pieces whose sign is unknown (x^2 - 1 dips below zero between two roots):
+# under a monotone atom with a restricted domain they are the classic way to get a domain that is
+# not convex, so the grammar offers them as ready-made leaves.
+SCALAR_PIECES = [x**2 - 1, sp.Abs(x) - 2, sp.exp(x) - 2, 1 - x**2, sp.log(xp) + 1, F.sum_squares(v) - 1,
+                 xp - 1, 1 - xn, sp.sqrt(xp) - 1, F.pnorm(v, 2) - 2]
+VECTOR_PIECES = [v**2 - 1, 1 - v**2, sp.exp(v) - 2, sp.Abs(v) - 1]
+
+
 def _leaf(draw, shape):
+    roll = draw(st.integers(0, 5))
     if shape == "v":
-        return draw(st.sampled_from(VECTOR_VARS))
-    if draw(st.integers(0, 3)) == 0:
+        return draw(st.sampled_from(VECTOR_PIECES if roll < 2 else VECTOR_VARS))
+    if roll == 0:
         return _constant(draw)
-    return draw(st.sampled_from(SCALAR_VARS))
+    return draw(st.sampled_from(SCALAR_PIECES if roll < 3 else SCALAR_VARS))
 
 
 _UNARY = [
     sp.exp, sp.log, sp.Abs, sp.sqrt, F.entr, F.logistic, F.inv_pos, F.pos, F.neg, F.log1p, F.xexp,
-    lambda e: F.huber(e, 1), lambda e: -e, sp.sin, penalty,
+    lambda e: F.huber(e, 1), lambda e: -e,
 ]
+# Always (or nearly always) UNKNOWN on variables; drawn less often so that verdicts stay frequent.
+_RARE = [sp.sin, penalty, F.nnz, lambda e: e * e.subs(x, xp)]
 _BINARY = [
     lambda a, b: a + b, lambda a, b: a - b, lambda a, b: a * b, sp.Max, sp.Min, F.rel_entr, F.kl_div,
+    lambda a, b: a + b,
 ]
 _REDUCE = [
     F.vsum, F.mean, F.sum_squares, F.log_sum_exp, F.geo_mean, F.harmonic_mean, F.vmax, F.vmin, F.tv,
-    F.nnz, lambda e: F.index(e, 1), lambda e: F.sum_largest(e, 2), lambda e: F.sum_smallest(e, 2),
+    lambda e: F.index(e, 1), lambda e: F.sum_largest(e, 2), lambda e: F.sum_smallest(e, 2),
     lambda e: F.vsum(F.diff(e)), lambda e: F.vsum(F.cumsum(e)),
 ]
 _MATRIX = [F.lambda_max, F.lambda_min, F.log_det, F.sigma_max, F.norm_nuc, F.trace]
@@ -100,12 +115,14 @@ def expressions(draw, depth=5, shape="s"):
     # Shifts and powers are weighted up: g(x) + c under a monotone atom is where the extended-value
     # subtleties (domains that are not convex) live.
     kind = draw(st.sampled_from(["unary"] * 3 + ["pow"] * 2 + ["shift"] * 2 + ["binary"] * 2
-                                + ["power", "scale"]
+                                + ["power", "scale", "rare"]
                                 + (["reduce", "reduce", "norm", "quad", "matrix"] if shape == "s" else
                                    ["stack", "matmul"])))
     sub = lambda s=shape: draw(expressions(depth - 1, s))  # noqa: E731
     if kind == "unary":
         return _safe(draw(st.sampled_from(_UNARY)), sub())
+    if kind == "rare":
+        return _safe(draw(st.sampled_from(_RARE)), sub())
     if kind == "pow":
         return sub() ** draw(st.sampled_from(EXPONENTS))
     if kind == "power":
@@ -120,7 +137,8 @@ def expressions(draw, depth=5, shape="s"):
     if kind == "reduce":
         return draw(st.sampled_from(_REDUCE))(sub("v"))
     if kind == "norm":
-        p = draw(st.sampled_from([sp.Integer(1), sp.Integer(2), sp.Integer(3), sp.oo, sp.Rational(1, 2)]))
+        p = draw(st.sampled_from([sp.Integer(1), sp.Integer(2), sp.Integer(3), sp.oo, sp.Integer(2),
+                                  sp.Rational(1, 2)]))
         return F.pnorm(sub("v"), p)
     if kind == "quad":
         if draw(st.booleans()):
@@ -157,6 +175,7 @@ def test_no_unsound_verdict():
     certified = total - stats[Curvature.UNKNOWN]
     print(f"\nverdicts over {total} examples: " + ", ".join(f"{c.value}={stats[c]}" for c in Curvature)
           + f"; certified and checked at >= 1 pair: {stats['tested']}")
-    assert certified >= 0.3 * total, stats
+    # Measured shares run at 32-43% (500 examples) and 32% (5,000); 25% leaves room for chance.
+    assert certified >= 0.25 * total, stats
     assert stats[Curvature.CONVEX] > 0 and stats[Curvature.CONCAVE] > 0, stats
     assert stats["tested"] >= 0.5 * certified, stats
