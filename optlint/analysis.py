@@ -20,6 +20,7 @@ from typing import Any
 
 import sympy
 
+from optlint.calculus import functions as F
 from optlint.calculus import Analysis, Budget, Curvature, Derivation, Facts, analyse, blame
 from optlint.ir import Constraint, Model, Objective
 from optlint.printer import show
@@ -67,11 +68,12 @@ class ModelAnalysis:
         self._memo: dict[Any, Analysis] = {}
         self._judged: dict[int, list[Judgement]] = {}
         self._shared: dict[str, object] = {}
+        self._witness: dict[int, dict | None] = {}
 
     def analyse(self, expr) -> Analysis:
         hit = self._memo.get(expr)
         if hit is None:
-            hit = analyse(expr, self.facts, self.budget)
+            hit = analyse(_quadratic_forms(expr, self.model), self.facts, self.budget)
             self._memo[expr] = hit
         return hit
 
@@ -80,6 +82,20 @@ class ModelAnalysis:
         if key not in self._shared:
             self._shared[key] = compute()
         return self._shared[key]
+
+    def witness(self, j: Judgement) -> dict | None:
+        """Two concrete points refuting what ``j`` needs (see optlint.evidence.witness), memoised."""
+        if j.ok or j.unknown_only:
+            return None
+        key = id(j)
+        if key not in self._witness:
+            from optlint.evidence.witness import for_judgement
+
+            try:
+                self._witness[key] = for_judgement(self, j)
+            except Exception:  # evidence is optional; a failed search must never fail the file
+                self._witness[key] = None
+        return self._witness[key]
 
     def has_variables(self, expr) -> bool:
         return isinstance(expr, sympy.Basic) and bool(expr.free_symbols & self.facts.variables)
@@ -130,6 +146,38 @@ class ModelAnalysis:
         return self.analyse(expr).curvature if isinstance(expr, sympy.Basic) else Curvature.CONSTANT
 
 
+def _quadratic_forms(expr, model: Model):
+    """``x.T @ P @ x`` and ``x @ P @ x`` with x a 1-D decision variable and P constant, read as
+    ``quad_form(x, P)``: for a vector x the two are the same number, and quad_form's curvature
+    follows P's definiteness (B&V 2004 §3.1.5, from memory)."""
+    if not isinstance(expr, sympy.Basic) or not expr.has(F.matmul):
+        return expr
+    variables = model.variables
+
+    def vector(v):
+        decl = model.declarations.get(v)
+        return v in variables and decl is not None and decl.shape is not None and len(decl.shape) == 1
+
+    found = {}
+    for node in sympy.preorder_traversal(expr):
+        if not isinstance(node, F.matmul):
+            continue
+        outer_l, outer_r = node.args
+        if isinstance(outer_l, F.matmul):
+            x_left, p, x = outer_l.args[0], outer_l.args[1], outer_r
+        elif isinstance(outer_r, F.matmul):
+            x_left, p, x = outer_l, outer_r.args[0], outer_r.args[1]
+        else:
+            continue
+        if isinstance(x_left, F.transpose):
+            x_left = x_left.args[0]
+        if x_left == x and vector(x) and not (p.free_symbols & variables):
+            found[node] = F.quad_form(x, p)
+        if len(found) > 64:
+            break
+    return expr.xreplace(found) if found else expr
+
+
 def derivation_path(root: Derivation, target: Derivation) -> list[Derivation]:
     """The nodes from the root down to ``target`` (inclusive), found by identity; iterative."""
     stack: list[tuple[Derivation, list[Derivation]]] = [(root, [root])]
@@ -165,6 +213,10 @@ def judgement_evidence(analysis: ModelAnalysis, j: Judgement) -> dict[str, Any]:
         node, reason = j.failure
         evidence["failing_step"] = dict(step_evidence(analysis, node), reason=reason)
         evidence["derivation"] = [step_evidence(analysis, n) for n in derivation_path(j.result.tree, node)]
+    witness = analysis.witness(j)
+    if witness is not None:
+        evidence["proof"] = "witness"
+        evidence["witness"] = witness
     if j.result.unknown_functions:
         evidence["unknown_functions"] = list(j.result.unknown_functions)
     if j.result.budget_exceeded:

@@ -26,6 +26,7 @@ from sympy.core.function import AppliedUndef
 
 from . import catalogue as cat
 from .catalogue import ArgInfo, Mono
+from . import functions as F
 from .functions import ModelFunction
 from .lattice import Curvature, Sign, sign_product, sign_sum
 from .model import Analysis, Budget, Composition, Derivation, Facts, Link, satisfies
@@ -231,6 +232,20 @@ class _Walker:
 
     def _psd_kind(self, matrix: sympy.Basic) -> Curvature:
         """CONVEX if ``matrix`` is known PSD, CONCAVE if known NSD, else UNKNOWN."""
+        if isinstance(matrix, sympy.Mul):
+            # c * P with c a real number: PSD-ness scales by the sign of c (B&V 2004 §A.5, from memory)
+            coeff, rest = matrix.as_coeff_Mul()
+            if coeff.is_zero is False and coeff.is_real and rest is not matrix:
+                kind = self._psd_kind(rest)
+                return kind.negate() if coeff < 0 and kind is not CURV.UNKNOWN else kind
+            return CURV.UNKNOWN
+        if isinstance(matrix, F.matmul) and not (matrix.free_symbols & self.facts.variables):
+            # B'B and BB' are PSD by construction: x'B'Bx = |Bx|^2 >= 0 (B&V 2004 §A.5, from memory)
+            left, right = matrix.args
+            if (isinstance(left, F.transpose) and left.args[0] == right) or \
+                    (isinstance(right, F.transpose) and right.args[0] == left):
+                return CURV.CONVEX
+            return CURV.UNKNOWN
         if not isinstance(matrix, sympy.Symbol):
             return CURV.UNKNOWN
         if matrix in self.facts.psd:

@@ -1,0 +1,447 @@
+"""Scalarisation: a model expression (vector variables, atoms) -> one scalar sympy function.
+
+Role: the second-order checks and the witness search work on functions of plain real symbols
+x_0, x_1, ... written only with elementary functions (Add, Mul, Pow, exp, log, Abs, Max, Min,
+Piecewise, trig). ``scalarise`` builds that function by evaluating the expression over numpy object
+arrays of sympy scalars, one entry per component of each decision variable.
+
+Invariants:
+- The result is an *instance* of the model expression, never a different function: unknown
+  dimensions are fixed at a stated size, a symbolic index at a stated element, data of unknown value
+  are placeholder symbols (``data``) the caller must give values and report, and data of unknown
+  shape used in a matrix product are vectors of identical entries (a restriction of the data, stated
+  in ``notes``). Non-convexity of an instance shows non-convexity of the expression for that data.
+- Atoms with a restricted domain are +oo outside it (Piecewise), the extended-value convention of
+  B&V 2004 §3.1.2 (from memory), so an evaluator never mistakes a point outside the domain for one
+  inside.
+- Anything not understood raises ``Unsupported``; callers then give no evidence (sound).
+- Sizes are capped (scalar variables, literal entries, expression nodes).
+"""
+
+from __future__ import annotations
+
+import itertools
+from dataclasses import dataclass, field
+
+import numpy
+import sympy
+from sympy.core.function import AppliedUndef
+
+from optlint.calculus import functions as F
+from optlint.lift import DataSymbol
+
+MAX_SCALARS = 64
+MAX_LITERAL = 4096
+MAX_OPS = 6000
+DEFAULT_DIMS = (2, 3)
+
+_ELEMENTWISE = (sympy.exp, sympy.log, sympy.Abs, sympy.sin, sympy.cos, sympy.tan, sympy.tanh,
+                sympy.sinh, sympy.cosh, sympy.atan, sympy.sign)
+
+
+class Unsupported(Exception):
+    pass
+
+
+@dataclass
+class Scalarised:
+    expr: sympy.Expr
+    symbols: list[sympy.Symbol]
+    labels: list[str]                       # "x_0" -> "charge[0]", same order as symbols
+    signs: list[int]                        # +1 nonnegative, -1 nonpositive, 0 free; per symbol
+    strict: list[bool]                      # strictly signed (positive/negative)
+    data: dict[sympy.Symbol, tuple[str, int]] = field(default_factory=dict)  # placeholder -> (name, sign)
+    sizes: dict[str, list[int]] = field(default_factory=dict)
+    notes: list[str] = field(default_factory=list)
+
+
+def _sign_of(sym) -> tuple[int, bool]:
+    if sym.is_positive:
+        return 1, True
+    if sym.is_nonnegative:
+        return 1, False
+    if sym.is_negative:
+        return -1, True
+    if sym.is_nonpositive:
+        return -1, False
+    return 0, False
+
+
+def _dim(value, default: int) -> int | None:
+    if value is None:
+        return default
+    try:
+        n = int(value)
+    except (TypeError, ValueError):
+        return default
+    return n if n >= 1 else None
+
+
+class _Builder:
+    def __init__(self, model, facts, default_dim: int, needs: dict):
+        self.needs = needs
+        self.model = model
+        self.facts = facts
+        self.default_dim = default_dim
+        self.out = Scalarised(sympy.Integer(0), [], [], [], [])
+        self.vars: dict = {}
+        self.placeholders: dict = {}
+        self.index_syms: dict = {}
+        self.memo: dict = {}
+
+    # -- leaves -------------------------------------------------------------------------------
+    def variable(self, sym) -> numpy.ndarray:
+        if sym in self.vars:
+            return self.vars[sym]
+        decl = self.model.declarations.get(sym) if self.model is not None else None
+        name = decl.name if decl is not None else str(sym)
+        shape = tuple(decl.shape) if decl is not None and decl.shape else ()
+        need = self.needs.get(sym, ())
+        if not shape and need:
+            shape = (None,) * len(need)  # indexed, so not a scalar: its size is unknown
+        dims = []
+        for axis, s in enumerate(shape):
+            known = _dim(s, 0)
+            least = need[axis] if len(need) == len(shape) else 1
+            dims.append(known if known else max(self.default_dim, least))
+        if any(d is None for d in dims) or len(dims) > 2:
+            raise Unsupported("variable shape")
+        size = int(numpy.prod(dims)) if dims else 1
+        if len(self.out.symbols) + size > MAX_SCALARS:
+            raise Unsupported("too many scalar variables")
+        sign, strict = _sign_of(sym)
+        cells = numpy.empty(size, dtype=object)
+        for k, idx in enumerate(itertools.product(*[range(d) for d in dims]) if dims else [()]):
+            s = sympy.Symbol(f"x_{len(self.out.symbols)}", real=True)
+            self.out.symbols.append(s)
+            self.out.labels.append(name + ("[" + ", ".join(map(str, idx)) + "]" if idx else ""))
+            self.out.signs.append(sign)
+            self.out.strict.append(strict)
+            cells[k] = s
+        arr = cells.reshape(dims) if dims else cells.reshape(())
+        self.out.sizes[name] = dims
+        self.vars[sym] = arr
+        return arr
+
+    def data(self, sym) -> numpy.ndarray:
+        literal = self.facts.matrices.get(sym)
+        if literal is not None:
+            values = numpy.asarray(literal, dtype=float)
+            if values.size > MAX_LITERAL or values.ndim > 2:
+                raise Unsupported("literal too large")
+            return _obj(values)
+        if sym not in self.placeholders:
+            d = sympy.Symbol(f"d_{len(self.placeholders)}", real=True)
+            self.placeholders[sym] = d
+            self.out.data[d] = (str(sym), _sign_of(sym)[0] if not sym.is_zero else 0)
+        return numpy.array(self.placeholders[sym], dtype=object)
+
+    # -- the walk -----------------------------------------------------------------------------
+    def build(self, node) -> numpy.ndarray:
+        key = node
+        if key in self.memo:
+            return self.memo[key]
+        value = self._build(node)
+        self.memo[key] = value
+        return value
+
+    def _build(self, node) -> numpy.ndarray:
+        if node in self.facts.variables:
+            return self.variable(node)
+        if isinstance(node, sympy.Symbol):
+            return self.data(node)
+        if isinstance(node, sympy.Number) or getattr(node, "is_NumberSymbol", False):
+            if not node.is_extended_real or not node.is_finite:
+                raise Unsupported("non-real number")
+            return numpy.array(node, dtype=object)
+        if isinstance(node, AppliedUndef):
+            raise Unsupported("unknown function")
+        if isinstance(node, F.index):
+            return self.index(node)
+        args = [self.build(a) for a in node.args] if not isinstance(node, _PARAM_ATOMS) else None
+        if isinstance(node, sympy.Add):
+            return _fold(args, lambda a, b: a + b)
+        if isinstance(node, sympy.Mul):
+            return _fold(args, lambda a, b: a * b)
+        if isinstance(node, sympy.Pow):
+            return _map2(lambda b, e: b ** e, args[0], args[1])
+        if node.func in _ELEMENTWISE:
+            return _map1(node.func, args[0])
+        if isinstance(node, (sympy.Max, sympy.Min)):
+            return _fold(args, lambda a, b: _map2(node.func, a, b))
+        return self.atom(node, args)
+
+    def index(self, node) -> numpy.ndarray:
+        base = self.build(node.args[0])
+        spec = node.args[1]
+        parts = spec.args if isinstance(spec, AppliedUndef) and _undef(spec) == "ix" else (spec,)
+        key = tuple(self.index_part(p) for p in parts)
+        try:
+            return numpy.asarray(base[key if len(key) > 1 else key[0]], dtype=object)
+        except (IndexError, TypeError) as exc:
+            raise Unsupported("index") from exc
+
+    def index_part(self, part):
+        if isinstance(part, AppliedUndef) and _undef(part) == "slice":
+            return slice(*[None if a == sympy.Symbol("_") else self.integer(a) for a in part.args])
+        return self.integer(part)
+
+    def integer(self, expr) -> int:
+        subs = {}
+        for s in expr.free_symbols:
+            if s in self.facts.variables or not isinstance(s, DataSymbol) or not s.is_integer:
+                raise Unsupported("index")
+            if s not in self.index_syms:
+                self.index_syms[s] = sympy.Integer(0)
+                self.out.notes.append(f"index `{str(s).split('#')[0]}` taken at its first element (0)")
+            subs[s] = sympy.Integer(0)
+        value = expr.xreplace(subs) if subs else expr
+        if not value.is_Integer:
+            raise Unsupported("index")
+        return int(value)
+
+    # -- atoms --------------------------------------------------------------------------------
+    def atom(self, node, args) -> numpy.ndarray:
+        f = type(node)
+        if f in _PARAM_ATOMS:
+            return self.param_atom(node)
+        a = args[0]
+        if f in (F.vsum,):
+            return _scalar(sympy.Add(*a.ravel()))
+        if f is F.mean:
+            return _scalar(sympy.Add(*a.ravel()) / max(a.size, 1))
+        if f is F.reshape:
+            return a.ravel() if a.ndim else a
+        if f is F.transpose:
+            return a.T
+        if f is F.trace:
+            if a.ndim != 2 or a.shape[0] != a.shape[1]:
+                raise Unsupported("trace")
+            return _scalar(sympy.Add(*numpy.diagonal(a)))
+        if f is F.stack:
+            if any(x.ndim > 1 for x in args):
+                raise Unsupported("stack of matrices")
+            return numpy.concatenate([x.reshape(-1) for x in args])
+        if f is F.matmul:
+            return self.matmul(node, args[0], args[1])
+        if f is F.diff:
+            return a[1:] - a[:-1] if a.ndim == 1 else _raise("diff")
+        if f is F.cumsum:
+            return numpy.cumsum(a.ravel()) if a.ndim <= 1 else _raise("cumsum")
+        if f in _SCALAR_FORMS:
+            return _map_n(_SCALAR_FORMS[f], *args)
+        if f is F.sum_squares:
+            return _scalar(sympy.Add(*[e ** 2 for e in a.ravel()]))
+        if f is F.quad_over_lin:
+            y = _one(args[1])
+            return _scalar(_restrict(sympy.Add(*[e ** 2 for e in a.ravel()]) / y, y > 0))
+        if f is F.quad_form:
+            return self.quad(a, args[1])
+        if f is F.log_sum_exp:
+            return _scalar(sympy.log(sympy.Add(*[sympy.exp(e) for e in a.ravel()])))
+        if f is F.geo_mean:
+            n = a.size
+            return _scalar(sympy.Mul(*[e ** sympy.Rational(1, n) for e in a.ravel()]))
+        if f is F.harmonic_mean:
+            es = list(a.ravel())
+            return _scalar(_restrict(len(es) / sympy.Add(*[1 / e for e in es]), sympy.And(*[e > 0 for e in es])))
+        if f is F.vmax:
+            return _scalar(sympy.Max(*a.ravel()))
+        if f is F.vmin:
+            return _scalar(sympy.Min(*a.ravel()))
+        if f is F.tv:
+            v = a.ravel()
+            return _scalar(sympy.Add(*[sympy.Abs(v[i + 1] - v[i]) for i in range(len(v) - 1)]))
+        if f is F.nnz:
+            return _scalar(sympy.Add(*[sympy.Piecewise((0, sympy.Eq(e, 0)), (1, True)) for e in a.ravel()]))
+        raise Unsupported(f"atom {f.__name__}")
+
+    def param_atom(self, node) -> numpy.ndarray:
+        f = type(node)
+        a = self.build(node.args[0])
+        p = node.args[1]
+        if p.free_symbols or not p.is_Number:
+            raise Unsupported("parameter")
+        es = list(a.ravel())
+        if f is F.pnorm:
+            if p is sympy.oo:
+                return _scalar(sympy.Max(*[sympy.Abs(e) for e in es]))
+            if p == 2:
+                return _scalar(sympy.sqrt(sympy.Add(*[e ** 2 for e in es])))
+            if p == 1:
+                return _scalar(sympy.Add(*[sympy.Abs(e) for e in es]))
+            if p > 0:
+                return _scalar(sympy.Add(*[sympy.Abs(e) ** p for e in es]) ** (1 / p))
+            raise Unsupported("norm parameter")
+        if f is F.huber:
+            m = p
+            return _map1(lambda e: sympy.Piecewise((e ** 2, sympy.Abs(e) <= m),
+                                                   (2 * m * sympy.Abs(e) - m ** 2, True)), a)
+        if f is F.power:
+            if p.is_integer and p >= 0:
+                return _map1(lambda e: e ** p, a)
+            if p > 0:
+                return _map1(lambda e: _restrict(e ** p, e >= 0), a)
+            return _map1(lambda e: _restrict(e ** p, e > 0), a)
+        if f in (F.sum_largest, F.sum_smallest):
+            k = int(p)
+            if not 1 <= k <= len(es) or len(es) > 8:
+                raise Unsupported("sum_largest")
+            pick = sympy.Max if f is F.sum_largest else sympy.Min
+            return _scalar(pick(*[sympy.Add(*c) for c in itertools.combinations(es, k)]))
+        raise Unsupported(f"atom {f.__name__}")
+
+    def matmul(self, node, a, b) -> numpy.ndarray:
+        # A 0-d operand of a matrix product is data (or a variable) of unknown shape: it stands
+        # for a vector of identical entries, the only reading that fits any partner's shape.
+        if a.ndim == 0 and b.ndim == 0:
+            return a * b
+        if a.ndim == 0 or b.ndim == 0:
+            unknown = node.args[0] if a.ndim == 0 else node.args[1]
+            if unknown in self.placeholders:
+                # Data standing for a matrix or vector of unknown content: only a positive fill
+                # is offered, so that a witness never rests on an implausible negative Gram matrix.
+                d = self.placeholders[unknown]
+                self.out.data[d] = (self.out.data[d][0], 1)
+                self.out.notes.append(f"`{unknown}` (shape unknown) taken as a vector whose entries are all equal")
+            else:
+                self.out.notes.append("an operand of unknown shape taken as a vector whose entries are all equal")
+            c, other = (a, b) if a.ndim == 0 else (b, a)
+            axis = 0 if a.ndim == 0 else -1
+            return numpy.asarray(c[()] * numpy.sum(other, axis=axis), dtype=object)
+        try:
+            return numpy.asarray(numpy.dot(a, b), dtype=object)
+        except ValueError as exc:
+            raise Unsupported("shapes") from exc
+
+    def quad(self, x, p) -> numpy.ndarray:
+        v = x.ravel()
+        if p.ndim == 0:
+            return _scalar(p[()] * sympy.Add(*[e ** 2 for e in v]))
+        if p.shape != (len(v), len(v)):
+            raise Unsupported("quad_form shapes")
+        return _scalar(sympy.Add(*[v[i] * p[i, j] * v[j] for i in range(len(v)) for j in range(len(v))
+                                   if p[i, j] != 0]))
+
+
+_PARAM_ATOMS = (F.pnorm, F.huber, F.power, F.sum_largest, F.sum_smallest)
+
+
+def _restrict(expr, cond):
+    """``expr`` on the domain ``cond``, +oo elsewhere (the extended-value convention)."""
+    return sympy.Piecewise((expr, cond), (sympy.oo, True))
+
+
+def _neg_log(e):
+    return _restrict(-e * sympy.log(e), e > 0)
+
+
+_SCALAR_FORMS = {
+    F.entr: _neg_log,
+    F.rel_entr: lambda x, y: _restrict(x * sympy.log(x) - x * sympy.log(y), sympy.And(x > 0, y > 0)),
+    F.kl_div: lambda x, y: _restrict(x * sympy.log(x) - x * sympy.log(y) - x + y, sympy.And(x > 0, y > 0)),
+    F.logistic: lambda x: sympy.log(1 + sympy.exp(x)),
+    F.inv_pos: lambda x: _restrict(1 / x, x > 0),
+    F.pos: lambda x: sympy.Max(x, 0),
+    F.neg: lambda x: sympy.Max(-x, 0),
+    F.log1p: lambda x: sympy.log(1 + x),
+    F.xexp: lambda x: _restrict(x * sympy.exp(x), x >= 0),
+}
+
+
+def _undef(node) -> str:
+    return getattr(node.func, "__name__", "")
+
+
+def _raise(what):
+    raise Unsupported(what)
+
+
+def _obj(values: numpy.ndarray) -> numpy.ndarray:
+    out = numpy.empty(values.shape, dtype=object)
+    for idx, v in numpy.ndenumerate(values):
+        out[idx] = sympy.Integer(int(v)) if float(v).is_integer() and abs(v) < 1e15 else sympy.Float(float(v))
+    return out
+
+
+def _scalar(expr) -> numpy.ndarray:
+    return numpy.array(expr, dtype=object)
+
+
+def _one(a: numpy.ndarray):
+    if a.size != 1:
+        raise Unsupported("scalar expected")
+    return a.ravel()[0]
+
+
+def _fold(args, op):
+    out = args[0]
+    for a in args[1:]:
+        try:
+            out = numpy.asarray(op(out, a), dtype=object)
+        except ValueError as exc:
+            raise Unsupported("shapes") from exc
+    return out
+
+
+def _map1(fn, a) -> numpy.ndarray:
+    return numpy.asarray(numpy.frompyfunc(fn, 1, 1)(a), dtype=object)
+
+
+def _map2(fn, a, b) -> numpy.ndarray:
+    try:
+        return numpy.asarray(numpy.frompyfunc(fn, 2, 1)(a, b), dtype=object)
+    except ValueError as exc:
+        raise Unsupported("shapes") from exc
+
+
+def _map_n(fn, *args) -> numpy.ndarray:
+    try:
+        return numpy.asarray(numpy.frompyfunc(fn, len(args), 1)(*args), dtype=object)
+    except ValueError as exc:
+        raise Unsupported("shapes") from exc
+
+
+def _index_needs(expr, variables) -> dict:
+    """Least size per axis of each variable, from its constant integer indices (x[0], X[1, 2])."""
+    needs: dict = {}
+    for node in sympy.preorder_traversal(expr):
+        if not isinstance(node, F.index) or node.args[0] not in variables:
+            continue
+        spec = node.args[1]
+        parts = spec.args if isinstance(spec, AppliedUndef) and _undef(spec) == "ix" else (spec,)
+        sizes = [int(p) + 1 if p.is_Integer and p >= 0 else 1 for p in parts]
+        old = needs.get(node.args[0], ())
+        if len(old) == len(sizes):
+            sizes = [max(a, b) for a, b in zip(old, sizes)]
+        needs[node.args[0]] = tuple(sizes)
+    return needs
+
+
+def _ops(expr) -> int:
+    return sum(1 for _ in sympy.preorder_traversal(expr))
+
+
+def scalarise(expr, model, facts) -> Scalarised:
+    """The scalar instance of ``expr``; tries the default sizes for unknown dimensions in turn."""
+    last: Exception = Unsupported("no size fits")
+    needs = _index_needs(expr, facts.variables)
+    for dim in DEFAULT_DIMS:
+        builder = _Builder(model, facts, dim, needs)
+        try:
+            value = builder.build(expr)
+        except Unsupported as exc:
+            last = exc
+            continue
+        except (TypeError, ValueError, AttributeError, RecursionError, ZeroDivisionError) as exc:
+            raise Unsupported(f"scalarisation failed ({type(exc).__name__})") from exc
+        if value.size != 1:
+            raise Unsupported("not a scalar expression")
+        result = builder.out
+        top = value.ravel()[0]
+        result.expr = top if isinstance(top, sympy.Basic) else sympy.Float(float(top))
+        if _ops(result.expr) > MAX_OPS:
+            raise Unsupported("expression too large")
+        result.notes = list(dict.fromkeys(result.notes))
+        return result
+    raise last
