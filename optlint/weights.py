@@ -41,12 +41,15 @@ class Diagnosis:
                 parts.append(f"{curvature.value} term `{body}` has weight {weight} in a {verb} objective; "
                              f"make the weight {need} (flip its sign)")
             else:
-                declared = [analysis.model.declarations[s].name for s in term.weight.free_symbols
+                # The weight is c*m (c a number): m needs the needed sign, flipped when c < 0.
+                c, m = term.weight.as_coeff_Mul()
+                m_need = need if c > 0 else ("nonpositive" if need == "nonnegative" else "nonnegative")
+                declared = [analysis.model.declarations[s].name for s in m.free_symbols
                             if s in analysis.model.declarations]
-                op = ">=" if need == "nonnegative" else "<="
+                op = ">=" if m_need == "nonnegative" else "<="
                 how = (f"declare {', '.join(f'`{n}`' for n in declared)} with a sign "
-                       f"({'nonneg' if need == 'nonnegative' else 'nonpos'}=True)" if declared
-                       else f"check it (`assert {weight} {op} 0`)")
+                       f"({'nonneg' if m_need == 'nonnegative' else 'nonpos'}=True)" if declared
+                       else f"check it (`assert {analysis.text(m)} {op} 0`)")
                 parts.append(f"{curvature.value} term `{body}` has weight `{weight}` whose sign is unknown; "
                              f"the objective is {j.want.value} only if it is {need}: {how}, or state the "
                              f"assumption in the project configuration")
