@@ -15,7 +15,13 @@ How it follows the code:
 - helper functions of the same module are inlined at their call sites (depth- and size-bounded);
   every function is also run on its own with its parameters as data, so models built inside
   functions are found even if nothing calls them;
-- ``self.attr = value`` inside a method is remembered for the rest of that method's run.
+- objects: calling a class of the module makes an instance (its ``__init__`` inlined with ``self``
+  bound); ``self.attr = value`` sets the instance's attribute, ``self.method(...)`` inlines the
+  method; a method run on its own gets an instance on which ``__init__`` has run first;
+- ``functools.partial`` and decorators a dialect understands (``@model.Constraint(...)``) are followed;
+- a helper imported from a sibling module of the same repository is parsed on demand (size-bounded,
+  its top level bound but never executed) and inlined like a local one; what happens inside it is
+  reported at the call site in the analysed file.
 
 A dialect supplies ``DialectHooks``: how its library calls (resolved by qualified name) build values.
 The interpreter registers objectives and constraints with the hooks' ``Registry`` as it meets them.
@@ -29,15 +35,19 @@ from typing import Any, Callable
 
 import libcst as cst
 import sympy
-from libcst.metadata import PositionProvider, QualifiedNameProvider, QualifiedNameSource
+from libcst.metadata import PositionProvider, QualifiedNameSource
 
 from optlint.calculus import functions as F
 from optlint.ir import Site
+from optlint import guards
+from optlint.names import QualifiedNames
 from optlint.lift import DataSymbol, data, involves, is_expr, number_from_literal, safe_pow
 
 MAX_ALTS = 12          # alternatives kept per evaluated expression
 MAX_INLINE_DEPTH = 6   # nested helper inlining
 MAX_STATEMENTS = 20000  # statements executed per file (loops, inlining) before giving up quietly
+MAX_FOREIGN_BYTES = 256 * 1024  # a sibling module larger than this is not parsed for its helpers
+MAX_FOREIGN_MODULES = 16  # sibling modules parsed per analysed file
 
 
 # ---------------------------------------------------------------------------------------------
@@ -75,6 +85,8 @@ class ListVal:
 @dataclass
 class DictVal:
     items: dict[Any, Any]
+    node: Any = None  # the dict display, when it came from one (dialects report sites there)
+    default: Any = None  # a dict comprehension's representative value, for keys not known
 
 
 @dataclass
@@ -82,6 +94,7 @@ class FuncVal:
     node: Any  # cst.FunctionDef | cst.Lambda
     closure: "Env"
     name: str
+    owner: Any = None  # the ClassVal a method belongs to (for ``super()``)
 
 
 @dataclass
@@ -114,6 +127,60 @@ class ProbVal:
 class ClassVal:
     name: str
     methods: dict[str, FuncVal] = field(default_factory=dict)
+    bases: tuple[str, ...] = ()  # qualified names of imported bases, names of local ones
+    attrs: dict[str, list[Alt]] = field(default_factory=dict)  # class-level assignments
+    parents: tuple["ClassVal", ...] = ()  # base classes defined in the analysed code
+
+    def find_method(self, name: str) -> "FuncVal | None":
+        if name in self.methods:
+            return self.methods[name]
+        for parent in self.parents:
+            found = parent.find_method(name)
+            if found is not None:
+                return found
+        return None
+
+    def all_bases(self) -> tuple[str, ...]:
+        out = list(self.bases)
+        for parent in self.parents:
+            out.extend(parent.all_bases())
+        return tuple(out)
+
+
+@dataclass(eq=False)
+class InstanceVal:
+    """An object: an instance of a class of the analysed code, or a library object a dialect models
+    (``kind`` names it, e.g. an algebraic model); attributes assigned on it live in ``attrs``."""
+
+    cls: ClassVal | None
+    attrs: dict[str, list[Alt]] = field(default_factory=dict)
+    kind: str = ""
+    data: dict[str, Any] = field(default_factory=dict)  # dialect-private state
+
+
+@dataclass
+class BoundFunc:
+    """A method of a local class bound to its instance (``self`` is the first argument)."""
+
+    func: FuncVal
+    self_value: Any
+
+
+@dataclass
+class SuperVal:
+    """``super()`` inside a method: attribute lookups start at the owner's base classes."""
+
+    owner: "ClassVal"
+    self_value: Any
+
+
+@dataclass
+class PartialVal:
+    """``functools.partial(func, *args, **kwargs)``."""
+
+    func: Any
+    args: list[Any]
+    kwargs: dict[str, Any]
 
 
 NONE = Opaque("None")
@@ -194,6 +261,27 @@ class DialectHooks:
         """Qualified name for ``name`` when the file did ``from module import *`` (else None)."""
         return None
 
+    def call_value(self, interp: "Interpreter", func: Any, args: list[Any], kwargs: dict[str, Any],
+                   node: cst.Call) -> Any:
+        """Value of calling a value that is not a function of the module (an opaque parameter, an
+        instance, a dialect's own object); ``NotImplemented`` when not ours."""
+        return NotImplemented
+
+    def subscript(self, interp: "Interpreter", base: Any, index: Any, node: cst.Subscript) -> Any:
+        return NotImplemented
+
+    def augassign(self, interp: "Interpreter", op: str, target: Any, value: Any, node: cst.AugAssign) -> Any:
+        """Value of ``target op= value`` (e.g. adding to a problem object); ``NotImplemented`` if not ours."""
+        return NotImplemented
+
+    def bind_attribute(self, interp: "Interpreter", owner: "InstanceVal", name: str, value: Any, node) -> Any:
+        """Value stored by ``owner.name = value`` (a model component learning its model)."""
+        return NotImplemented
+
+    def decorate(self, interp: "Interpreter", decorator: Any, func: "FuncVal", node: cst.FunctionDef) -> Any:
+        """Value bound to a decorated function's name; ``NotImplemented`` keeps the plain function."""
+        return NotImplemented
+
 
 # ---------------------------------------------------------------------------------------------
 # The interpreter
@@ -207,7 +295,7 @@ class Interpreter:
         self.hooks = hooks
         self.registry = registry
         self.positions = wrapper.resolve(PositionProvider)
-        self.qualnames = wrapper.resolve(QualifiedNameProvider)
+        self.qualnames = QualifiedNames(wrapper.module)  # imports resolved cheaply; see optlint/names.py
         self.star_modules = self._star_imports()
         self.variables: set[sympy.Symbol] = set()
         self.loop_depth = 0
@@ -219,6 +307,11 @@ class Interpreter:
         self.ran_functions: set[int] = set()
         self.current_hint: str | None = None
         self.current_branch: tuple[str, ...] = ()  # branch labels of the call being evaluated
+        self.branch_depth = 0  # inside if/try/match bodies: attribute writes keep older values too
+        self.anchors: list[cst.CSTNode] = []  # call sites in this file that entered a sibling module
+        self.foreign_names: dict[Any, tuple[Any, tuple[str, ...]]] = {}  # node -> (qualnames, star modules)
+        self.foreign_modules: dict[str, Env | None] = {}  # sibling module path -> its top-level names
+        self.methods: list[tuple[Any, Any]] = []  # (owner class, self) of the methods being run
 
     # -- entry -----------------------------------------------------------------------------
 
@@ -238,35 +331,69 @@ class Interpreter:
         for stmt in body:
             if isinstance(stmt, cst.FunctionDef):
                 yield stmt, env, cls
-                yield from self._all_functions(_block_body(stmt.body), env, cls)
+                yield from self._all_functions(_block_body(stmt.body), env, None)
             elif isinstance(stmt, cst.ClassDef):
-                yield from self._all_functions(_block_body(stmt.body), env, stmt.name.value)
+                found = env.lookup(stmt.name.value)
+                value = found[0].value if found else None
+                yield from self._all_functions(_block_body(stmt.body), env,
+                                               value if isinstance(value, ClassVal) else None)
             elif isinstance(stmt, (cst.If, cst.Try, cst.With, cst.For, cst.While)):
                 for block in _sub_blocks(stmt):
                     yield from self._all_functions(block, env, cls)
 
-    def run_function_standalone(self, fn: cst.FunctionDef, closure: Env, cls: str | None) -> None:
+    def run_function_standalone(self, fn: cst.FunctionDef, closure: Env, cls: "ClassVal | None") -> None:
         env = Env(parent=closure)
         params = fn.params
-        for p in list(params.posonly_params) + list(params.params) + list(params.kwonly_params):
-            env.vars[p.name.value] = [Alt(Opaque(p.name.value))]
+        positional = list(params.posonly_params) + list(params.params)
+        for p in positional + list(params.kwonly_params):
+            sign = guards.literal_sign(p.default) if p.default is not None else None
+            # A literal default is the sign the author had in mind: evidence for the weight rules.
+            env.vars[p.name.value] = [Alt(data(p.name.value, **{sign: True}) if sign else Opaque(p.name.value))]
         for star in (params.star_arg, params.star_kwarg):
             if isinstance(star, cst.Param):
                 env.vars[star.name.value] = [Alt(Opaque(star.name.value))]
+        owner = None
+        if cls is not None and positional and not _decorated(fn, ("staticmethod", "classmethod")):
+            # A method analysed on its own sees the attributes its class's __init__ sets.
+            inst = self.new_instance(cls, [], {}, fn, run_init=fn.name.value != "__init__")
+            env.vars[positional[0].name.value] = [Alt(inst)]
+            owner = (cls, inst)
         self.returns.append([])
+        self.methods.append(owner or (None, None))
         try:
             self.exec_block(_block_body(fn.body), env)
         finally:
             self.returns.pop()
+            self.methods.pop()
+
+    def new_instance(self, cls: ClassVal, args, kwargs, node, run_init: bool = True) -> InstanceVal:
+        inst = InstanceVal(cls)
+        init = cls.find_method("__init__")
+        if run_init and init is not None:
+            self.inline(init, [inst] + list(args), kwargs, node)
+        return inst
 
     # -- positions and text ------------------------------------------------------------------
 
+    def position(self, node: cst.CSTNode):
+        """Source range of a node of this file; a node of a sibling module is placed at the call in
+        this file that led into it."""
+        rng = self.positions.get(node)
+        if rng is None:
+            for anchor in self.anchors:
+                rng = self.positions.get(anchor)
+                if rng is not None:
+                    break
+        if rng is None:
+            rng = self.positions[self.module]
+        return rng
+
     def site(self, node: cst.CSTNode) -> Site:
-        rng = self.positions[node]
+        rng = self.position(node)
         return Site(self.path, rng.start.line, rng.start.column + 1, rng.end.line, rng.end.column + 1)
 
     def line(self, node: cst.CSTNode) -> int:
-        return self.positions[node].start.line
+        return self.position(node).start.line
 
     def code(self, node: cst.CSTNode) -> str:
         text = self.module.code_for_node(node)
@@ -305,24 +432,54 @@ class Interpreter:
                     self.bind(item.asname.name, alts, env, self.line(stmt))
             self.exec_block(_block_body(stmt.body), env)
         elif isinstance(stmt, cst.FunctionDef):
-            env.vars[stmt.name.value] = [Alt(FuncVal(stmt, env, stmt.name.value), (), self.line(stmt))]
+            env.vars[stmt.name.value] = self.exec_def(stmt, env)
         elif isinstance(stmt, cst.ClassDef):
-            cls = ClassVal(stmt.name.value)
-            for inner in _block_body(stmt.body):
-                if isinstance(inner, cst.FunctionDef):
-                    cls.methods[inner.name.value] = FuncVal(inner, env, inner.name.value)
-            env.vars[stmt.name.value] = [Alt(cls, (), self.line(stmt))]
+            self.exec_class(stmt, env)
         elif isinstance(stmt, cst.Match):
             branches, labels = [], []
             self.eval(stmt.subject, env)
-            for case in stmt.cases:
-                b = env.copy()
-                self.exec_block(_block_body(case.body), b)
-                branches.append(b)
-                labels.append(f"case on line {self.line(case)}")
+            self.branch_depth += 1
+            try:
+                for case in stmt.cases:
+                    b = env.copy()
+                    self.exec_block(_block_body(case.body), b)
+                    branches.append(b)
+                    labels.append(f"case on line {self.line(case)}")
+            finally:
+                self.branch_depth -= 1
             branches.append(env.copy())
             labels.append("no case matched")
             merge_envs(env, branches, labels)
+
+    def exec_def(self, stmt: cst.FunctionDef, env: Env) -> list[Alt]:
+        func = FuncVal(stmt, env, stmt.name.value)
+        value: Any = func
+        for dec in reversed(stmt.decorators):
+            if not isinstance(dec.decorator, (cst.Call, cst.Attribute)):
+                continue  # @staticmethod, @property, ...: the function itself is what matters
+            for alt in self.eval(dec.decorator, env)[:1]:
+                result = self.hooks.decorate(self, alt.value, func, stmt)
+                if result is not NotImplemented:
+                    value = result
+        return [Alt(value, (), self.line(stmt))]
+
+    def exec_class(self, stmt: cst.ClassDef, env: Env) -> None:
+        bases, parents = [], []
+        for arg in stmt.bases:
+            for alt in self.eval(arg.value, env)[:1]:
+                if isinstance(alt.value, GlobalRef):
+                    bases.append(alt.value.qualname)
+                elif isinstance(alt.value, ClassVal):
+                    parents.append(alt.value)
+        cls = ClassVal(stmt.name.value, bases=tuple(bases), parents=tuple(parents))
+        class_env = Env(parent=env)
+        for inner in _block_body(stmt.body):
+            if isinstance(inner, cst.FunctionDef):
+                cls.methods[inner.name.value] = FuncVal(inner, env, inner.name.value, cls)
+            elif isinstance(inner, (cst.SimpleStatementLine, _SuiteLine)):
+                self.exec_stmt(inner, class_env)
+        cls.attrs = dict(class_env.vars)
+        env.vars[stmt.name.value] = [Alt(cls, (), self.line(stmt))]
 
     def exec_small(self, small, env: Env) -> None:
         if isinstance(small, cst.Assign):
@@ -347,6 +504,7 @@ class Interpreter:
                 self.eval(small.test, env)
             finally:
                 self.condition_depth -= 1
+            self.learn_signs(guards.facts(small.test, True), env)
 
     def exec_augassign(self, small: cst.AugAssign, env: Env) -> None:
         op = type(small.operator).__name__.replace("Assign", "")
@@ -354,7 +512,10 @@ class Interpreter:
         value_alts = self.eval(small.value, env)
         out: list[Alt] = []
         for t, v in self.product(target_alts, value_alts):
-            if isinstance(t.value, ListVal) and op == "Add":
+            hooked = self.hooks.augassign(self, op, t.value, v.value, small)
+            if hooked is not NotImplemented:
+                out.append(Alt(hooked, _join(t.branch, v.branch)))
+            elif isinstance(t.value, ListVal) and op == "Add":
                 t.value.items.extend(self.iterate(v.value))
                 out.append(Alt(t.value, _join(t.branch, v.branch)))
             else:
@@ -368,14 +529,28 @@ class Interpreter:
         finally:
             self.condition_depth -= 1
         then_env = env.copy()
-        self.exec_block(_block_body(stmt.body), then_env)
-        else_env = env.copy()
-        if isinstance(stmt.orelse, cst.If):
-            self.exec_if(stmt.orelse, else_env)
-        elif isinstance(stmt.orelse, cst.Else):
-            self.exec_block(_block_body(stmt.orelse.body), else_env)
+        self.branch_depth += 1
+        try:
+            self.exec_block(_block_body(stmt.body), then_env)
+            else_env = env.copy()
+            if isinstance(stmt.orelse, cst.If):
+                self.exec_if(stmt.orelse, else_env)
+            elif isinstance(stmt.orelse, cst.Else):
+                self.exec_block(_block_body(stmt.orelse.body), else_env)
+        finally:
+            self.branch_depth -= 1
         line = self.line(stmt)
         merge_envs(env, [then_env, else_env], [f"if branch on line {line}", f"else branch of line {line}"])
+        if stmt.orelse is None and guards.always_raises(stmt.body):
+            self.learn_signs(guards.facts(stmt.test, False), env)  # `if lam < 0: raise ...`
+
+    def learn_signs(self, facts: list[tuple[str, str]], env: Env) -> None:
+        """After a guard, a data name is rebound to data of the sign the guard establishes."""
+        for name, sign in facts:
+            alts = env.lookup(name)
+            if alts is None or not all(_is_plain_data(a.value) and not self.involves(a.value) for a in alts):
+                continue
+            env.vars[name] = [Alt(data(name, **{sign: True}), a.branch, a.line) for a in alts[:1]]
 
     def exec_loop(self, stmt, env: Env) -> None:
         if isinstance(stmt, cst.For):
@@ -399,6 +574,13 @@ class Interpreter:
             self.exec_block(_block_body(stmt.orelse.body), env)
 
     def exec_try(self, stmt, env: Env) -> None:
+        self.branch_depth += 1
+        try:
+            self._exec_try(stmt, env)
+        finally:
+            self.branch_depth -= 1
+
+    def _exec_try(self, stmt, env: Env) -> None:
         body_env = env.copy()
         self.exec_block(_block_body(stmt.body), body_env)
         branches, labels = [body_env], [f"try block on line {self.line(stmt)}"]
@@ -431,6 +613,20 @@ class Interpreter:
                         sub.append(Alt(Opaque(self.code(el.value)), a.branch, line))
                 self.bind(el.value, sub, env, line)
         elif isinstance(target, cst.Attribute):
+            owners = ([a.value for a in self.eval(target.value, env)]
+                      if isinstance(target.value, (cst.Name, cst.Attribute)) else [])
+            instances = [o for o in owners if isinstance(o, InstanceVal)]
+            if instances:
+                name = target.attr.value
+                for inst in instances:
+                    stored = []
+                    for a in alts:
+                        hooked = self.hooks.bind_attribute(self, inst, name, a.value, target)
+                        stored.append(a if hooked is NotImplemented else Alt(hooked, a.branch, a.line))
+                    old = inst.attrs.get(name, []) if self.branch_depth else []
+                    new = [a for a in stored if all(a.value is not o.value for o in old)]
+                    inst.attrs[name] = (old + new)[:MAX_ALTS]
+                return
             key = _dotted(target)
             if key is not None:
                 env.vars[key] = alts
@@ -504,14 +700,15 @@ class Interpreter:
         return [Alt(Opaque(name))]
 
     def qualname(self, node) -> str | None:
-        names = self.qualnames.get(node, ())
+        foreign = self.foreign_names.get(node)
+        names, stars = foreign if foreign is not None else (self.qualnames.get(node, ()), self.star_modules)
         if callable(names):  # libcst computes qualified names lazily
             names = names()
         imported = sorted(q.name for q in names if q.source is QualifiedNameSource.IMPORT)
         if imported:
             return imported[0]
         if isinstance(node, cst.Name):  # `from lib import *` shadows builtins such as sum and max
-            for module in self.star_modules:
+            for module in stars:
                 resolved = self.hooks.star_import_name(module, node.value)
                 if resolved is not None:
                     return resolved
@@ -532,9 +729,13 @@ class Interpreter:
             if qn is not None:
                 return [Alt(GlobalRef(qn))]
         out = []
+        name = node.attr.value
         for b in self.eval(node.value, env):
-            out.append(Alt(self.attribute(b.value, node.attr.value, node), b.branch))
-        return out
+            if isinstance(b.value, InstanceVal) and name in b.value.attrs:
+                out.extend(Alt(a.value, _join(b.branch, a.branch), a.line) for a in b.value.attrs[name])
+            else:
+                out.append(Alt(self.attribute(b.value, name, node), b.branch))
+        return out[:MAX_ALTS]
 
     def attribute(self, base, name: str, node) -> Any:
         if isinstance(base, GlobalRef):
@@ -542,8 +743,27 @@ class Interpreter:
         result = self.hooks.attribute(self, base, name, node)
         if result is not NotImplemented:
             return result
-        if isinstance(base, ClassVal) and name in base.methods:
-            return base.methods[name]
+        if isinstance(base, ClassVal):
+            method = base.find_method(name)
+            if method is not None:
+                return method
+            if name in base.attrs:
+                return base.attrs[name][0].value
+        if isinstance(base, SuperVal):
+            for parent in base.owner.parents:
+                method = parent.find_method(name)
+                if method is not None:
+                    return BoundFunc(method, base.self_value)
+            return Opaque(self.code(node))
+        if isinstance(base, InstanceVal) and base.cls is not None:
+            method = base.cls.find_method(name)
+            if method is not None:
+                if _decorated(method.node, ("staticmethod",)):
+                    return method
+                return BoundFunc(method, base)
+            for cls in _class_chain(base.cls):
+                if name in cls.attrs:
+                    return cls.attrs[name][0].value
         return BoundMethod(base, name, self.code(node.value))
 
     def eval_Subscript(self, node, env):
@@ -576,6 +796,9 @@ class Interpreter:
         return expr if expr is not None else data(self.code(node))
 
     def subscript(self, base, idx, node):
+        hooked = self.hooks.subscript(self, base, idx, node)
+        if hooked is not NotImplemented:
+            return hooked
         if isinstance(base, ListVal) and isinstance(idx, sympy.Integer) and not base.from_comprehension:
             try:
                 return base.items[int(idx)]
@@ -585,6 +808,14 @@ class Interpreter:
             for k, v in base.items.items():
                 if k == idx:
                     return v
+            if base.default is not None:
+                # one representative entry: distinct keys must stay distinct entries
+                expr = self.to_expr(base.default, None) if not isinstance(base.default, (FuncVal, ClassVal)) else None
+                return F.index(expr, idx) if expr is not None and self.involves(expr) else base.default
+            values = list(base.items.values())
+            if values and all(isinstance(v, sympy.Number) and v.is_real for v in values):
+                # some entry of a table of literal numbers: a constant with their common sign
+                return data(self.code(node), **_common_sign(values))
             return Opaque(self.code(node))
         expr = self.to_expr(base, node.value)
         if expr is None:
@@ -601,6 +832,11 @@ class Interpreter:
     def binop(self, op: str, left, right, node) -> Any:
         if op == "Add" and isinstance(left, ListVal) and isinstance(right, ListVal):
             return ListVal(left.items + right.items)
+        if op == "Multiply" and (isinstance(left, ListVal) or isinstance(right, ListVal)):
+            seq, count = (left, right) if isinstance(left, ListVal) else (right, left)
+            if not isinstance(count, ListVal) and not self.involves(self.to_expr(count, None)):
+                # [item] * n: n copies of one item, like a comprehension's representative element
+                return ListVal(list(seq.items), from_comprehension=seq.from_comprehension or len(seq.items) == 1)
         if op in ("RightShift", "LeftShift"):
             result = self.hooks_psd(op, left, right, node)
             if result is not None:
@@ -731,7 +967,7 @@ class Interpreter:
             if isinstance(el, cst.DictElement):
                 key = self.eval_one(el.key, env)
                 items[key if isinstance(key, (str, sympy.Basic, bool)) else id(el)] = self.eval_one(el.value, env)
-        return [Alt(DictVal(items))]
+        return [Alt(DictVal(items, node))]
 
     def eval_comprehension(self, node, env, element):
         local = Env(parent=env)
@@ -752,6 +988,19 @@ class Interpreter:
         finally:
             self.loop_depth -= 1
         return [Alt(ListVal([a.value], from_comprehension=True), a.branch) for a in alts]
+
+    def eval_DictComp(self, node, env):
+        local = Env(parent=env)
+        comp = node.for_in
+        while comp is not None:
+            self.bind_loop_target(comp.target, self.eval(comp.iter, local), local, self.line(comp))
+            comp = comp.inner_for_in
+        self.loop_depth += 1
+        try:
+            value = self.eval(node.value, local)[0].value
+        finally:
+            self.loop_depth -= 1
+        return [Alt(DictVal({}, node, value))]
 
     def eval_ListComp(self, node, env):
         return self.eval_comprehension(node, env, node.elt)
@@ -797,19 +1046,42 @@ class Interpreter:
         return out or [Alt(Opaque(self.code(node)))]
 
     def call(self, func, args, kwargs, node, hint) -> list[Alt]:
+        self.current_hint = hint  # the assignment target names what a declaring call makes
         if isinstance(func, GlobalRef):
-            self.current_hint = hint
             result = self.hooks.call(self, func.qualname, args, kwargs, node)
             if result is NotImplemented:
+                foreign = self.foreign(func.qualname)
+                if foreign is not None:
+                    self.anchors.append(node)
+                    try:
+                        return self.call(foreign, args, kwargs, node, hint)
+                    finally:
+                        self.anchors.pop()
                 result = self.builtin(func.qualname, args, kwargs, node)
             return [Alt(result)]
         if isinstance(func, FuncVal):
             return self.inline(func, args, kwargs, node)
+        if isinstance(func, BoundFunc):
+            return self.inline(func.func, [func.self_value] + list(args), kwargs, node)
+        if isinstance(func, PartialVal):
+            return self.call(func.func, list(func.args) + list(args), {**func.kwargs, **kwargs}, node, hint)
         if isinstance(func, BoundMethod):
             return [Alt(self.call_method(func, args, kwargs, node))]
+        self.current_hint = hint
+        result = self.hooks.call_value(self, func, args, kwargs, node)
+        if result is not NotImplemented:
+            return [Alt(result)]
         if isinstance(func, ClassVal):
-            return [Alt(Opaque(self.code(node)))]
+            if len(self.inline_stack) >= MAX_INLINE_DEPTH:
+                return [Alt(Opaque(self.code(node)))]
+            return [Alt(self.new_instance(func, args, kwargs, node))]
+        if isinstance(func, InstanceVal) and func.cls is not None and func.cls.find_method("__call__") is not None:
+            return self.inline(func.cls.find_method("__call__"), [func] + list(args), kwargs, node)
         return [Alt(self.unknown_call(_callee_text(self, node), args, kwargs, node))]
+
+    def call_function(self, func, args, kwargs, node) -> list[Alt]:
+        """Call a function value (a dialect handing user callbacks to the interpreter)."""
+        return self.call(func, list(args), dict(kwargs), node, None)
 
     def call_method(self, m: BoundMethod, args, kwargs, node):
         base = m.base
@@ -869,6 +1141,10 @@ class Interpreter:
             return ListVal([])
         if name == "float" and args and is_expr(args[0]):
             return args[0]
+        if qualname == "functools.partial" and args:
+            return PartialVal(args[0], list(args[1:]), dict(kwargs))
+        if name == "super" and not args and self.methods and self.methods[-1][0] is not None:
+            return SuperVal(*self.methods[-1])
         return self.unknown_call(qualname, args, kwargs, node)
 
     def inline(self, func: FuncVal, args, kwargs, node) -> list[Alt]:
@@ -900,6 +1176,8 @@ class Interpreter:
         self.inline_stack.append(id(fn))
         if isinstance(fn, cst.FunctionDef):
             self.ran_functions.add(id(fn))
+        self_value = args[0] if args else None
+        self.methods.append((func.owner, self_value) if func.owner is not None else (None, None))
         try:
             if isinstance(fn, cst.Lambda):
                 return self.eval(fn.body, env)
@@ -912,6 +1190,82 @@ class Interpreter:
             return results[:MAX_ALTS] or [Alt(NONE)]
         finally:
             self.inline_stack.pop()
+            self.methods.pop()
+
+    # -- helpers imported from sibling modules ---------------------------------------------
+
+    def foreign(self, qualname: str):
+        """The function or class ``qualname`` names in a sibling module of this repository, or None.
+
+        ``.pen.hinge`` (relative) is looked up from this file's package; ``pen.hinge`` (absolute)
+        from this file's directory and up to two directories above it."""
+        if qualname.startswith("builtins.") or "." not in qualname.lstrip("."):
+            return None
+        level = len(qualname) - len(qualname.lstrip("."))
+        parts = qualname.lstrip(".").split(".")
+        module, name = parts[:-1], parts[-1]
+        if not module or not all(p.isidentifier() for p in parts):
+            return None
+        import os
+
+        here = os.path.dirname(os.path.abspath(self.path))
+        if level:
+            bases = [here]
+            for _ in range(level - 1):
+                bases = [os.path.dirname(bases[0])]
+        else:
+            bases = [here, os.path.dirname(here), os.path.dirname(os.path.dirname(here))]
+        for base in bases:
+            stem = os.path.join(base, *module)
+            for candidate in (stem + ".py", os.path.join(stem, "__init__.py")):
+                if os.path.isfile(candidate) and os.path.abspath(candidate) != os.path.abspath(self.path):
+                    env = self._foreign_env(candidate)
+                    if env is None:
+                        return None
+                    found = env.vars.get(name)
+                    value = found[0].value if found else None
+                    return value if isinstance(value, (FuncVal, ClassVal)) else None
+        return None
+
+    @property
+    def files_read(self) -> list[str]:
+        """Sibling modules whose definitions this run used or tried to use (their content matters)."""
+        return sorted(self.foreign_modules)
+
+    def _foreign_env(self, path: str) -> "Env | None":
+        if path in self.foreign_modules:
+            return self.foreign_modules[path]
+        if len(self.foreign_modules) >= MAX_FOREIGN_MODULES:
+            return None
+        self.foreign_modules[path] = None
+        try:
+            with open(path, "rb") as fh:
+                raw = fh.read(MAX_FOREIGN_BYTES + 1)
+            if len(raw) > MAX_FOREIGN_BYTES:
+                return None
+            module = cst.parse_module(raw.decode("utf-8"))
+            wrapper = cst.MetadataWrapper(module, unsafe_skip_copy=True)
+            names = QualifiedNames(wrapper.module)
+        except (OSError, UnicodeDecodeError, cst.ParserSyntaxError, RecursionError, ValueError):
+            return None
+        star_modules = _star_modules(module)
+        for node, qn in names.items():
+            self.foreign_names[node] = (qn, star_modules)
+        env = Env()
+        # Only definitions and literal constants: a sibling module's top level is never executed.
+        for stmt in module.body:
+            if isinstance(stmt, cst.FunctionDef):
+                env.vars[stmt.name.value] = [Alt(FuncVal(stmt, env, stmt.name.value))]
+            elif isinstance(stmt, cst.ClassDef):
+                self.exec_class(stmt, env)
+            elif isinstance(stmt, cst.SimpleStatementLine):
+                for small in stmt.body:
+                    if isinstance(small, cst.Assign) and _is_literal(small.value):
+                        for target in small.targets:
+                            if isinstance(target.target, cst.Name):
+                                env.vars[target.target.value] = self.eval(small.value, env)
+        self.foreign_modules[path] = env
+        return env
 
     # -- lifting helpers --------------------------------------------------------------------
 
@@ -949,13 +1303,7 @@ class Interpreter:
         return None
 
     def _star_imports(self) -> tuple[str, ...]:
-        mods = []
-        for stmt in self.module.body:
-            if isinstance(stmt, cst.SimpleStatementLine):
-                for small in stmt.body:
-                    if isinstance(small, cst.ImportFrom) and isinstance(small.names, cst.ImportStar) and small.module is not None:
-                        mods.append(_dotted(small.module) or "")
-        return tuple(mods)
+        return _star_modules(self.module)
 
 
 # ---------------------------------------------------------------------------------------------
@@ -964,6 +1312,11 @@ class Interpreter:
 _REL = {"LessThanEqual": "<=", "GreaterThanEqual": ">=", "Equal": "==", "LessThan": "<", "GreaterThan": ">"}
 _OP_TEXT = {"FloorDivide": "//", "Modulo": "%", "BitAnd": "&", "BitOr": "|", "BitXor": "^",
             "LeftShift": "<<", "RightShift": ">>"}
+
+
+def _is_plain_data(value) -> bool:
+    """Data of unknown value: an opaque object or a symbolic constant (not a literal number)."""
+    return isinstance(value, Opaque) or (isinstance(value, sympy.Basic) and not value.is_number)
 
 
 def _common_sign(numbers) -> dict:
@@ -1019,6 +1372,39 @@ def _sub_blocks(stmt):
             yield _block_body(stmt.finalbody.body)
     elif isinstance(stmt, (cst.With, cst.For, cst.While)):
         yield _block_body(stmt.body)
+
+
+def _star_modules(module: cst.Module) -> tuple[str, ...]:
+    """Modules a module star-imports at its top level (``from lib import *``)."""
+    mods = []
+    for stmt in module.body:
+        if isinstance(stmt, cst.SimpleStatementLine):
+            for small in stmt.body:
+                if (isinstance(small, cst.ImportFrom) and isinstance(small.names, cst.ImportStar)
+                        and small.module is not None):
+                    mods.append(_dotted(small.module) or "")
+    return tuple(mods)
+
+
+def _is_literal(node) -> bool:
+    if isinstance(node, (cst.Integer, cst.Float, cst.SimpleString)):
+        return True
+    if isinstance(node, cst.UnaryOperation) and isinstance(node.operator, cst.Minus):
+        return _is_literal(node.expression)
+    if isinstance(node, (cst.Tuple, cst.List)):
+        return all(_is_literal(el.value) for el in node.elements)
+    return False
+
+
+def _decorated(fn, names: tuple[str, ...]) -> bool:
+    return isinstance(fn, cst.FunctionDef) and any(
+        isinstance(d.decorator, cst.Name) and d.decorator.value in names for d in fn.decorators)
+
+
+def _class_chain(cls: ClassVal):
+    yield cls
+    for parent in cls.parents:
+        yield from _class_chain(parent)
 
 
 def _dotted(node) -> str | None:

@@ -87,6 +87,10 @@ class Model:
     matrices: dict[Any, Any] = field(default_factory=dict)  # literal constant arrays by symbol
     origins: dict[Any, tuple[int, str]] = field(default_factory=dict)  # sympy node -> (line, source)
     truncated: bool = False  # the interpreter hit its statement budget; the model may be incomplete
+    # (line, column, rule id) -> a sentence the recogniser adds to a finding there (conventions of the
+    # library, e.g. that scipy's 'ineq' means fun(x) >= 0); the engine appends it to the message
+    remarks: dict[tuple[int, int, str], str] = field(default_factory=dict)
+    dependencies: list[str] = field(default_factory=list)  # sibling modules the analysis read (for caches)
 
     @property
     def variables(self) -> frozenset[Any]:

@@ -14,13 +14,24 @@ import re
 
 # One import signature per dialect. A module-level import, an indented one (inside a function or
 # try block), `import a, cvxpy` and `from cvxpy.atoms import norm` all match.
+def _imports(library: bytes) -> re.Pattern[bytes]:
+    return re.compile(rb"^[ \t]*(?:from[ \t]+" + library + rb"\b|import[ \t]+[^\n#]*\b" + library + rb"\b)",
+                      re.MULTILINE)
+
+
 SIGNATURES: dict[str, re.Pattern[bytes]] = {
-    "dsl": re.compile(rb"^[ \t]*(?:from[ \t]+cvxpy\b|import[ \t]+[^\n#]*\bcvxpy\b)", re.MULTILINE),
+    "dsl": _imports(rb"cvxpy"),
+    "algebraic": _imports(rb"pyomo"),
+    "scipy": _imports(rb"scipy"),
+    "casadi": _imports(rb"casadi"),
+    "losses": _imports(rb"torch"),
+    "pulp": _imports(rb"pulp"),
 }
 
 
 # The library name each signature needs: a notebook without any of them is skipped unparsed.
-WORDS: dict[str, bytes] = {"dsl": b"cvxpy"}
+WORDS: dict[str, bytes] = {"dsl": b"cvxpy", "algebraic": b"pyomo", "scipy": b"scipy", "casadi": b"casadi",
+                           "losses": b"torch", "pulp": b"pulp"}
 
 
 def dialects_in(data: bytes) -> tuple[str, ...]:

@@ -11,6 +11,11 @@ import importlib
 
 DIALECT_MODULES = {
     "dsl": "optlint.dialects.dsl",
+    "algebraic": "optlint.dialects.algebraic",
+    "scipy": "optlint.dialects.scipy_opt",
+    "casadi": "optlint.dialects.casadi_opti",
+    "losses": "optlint.dialects.losses",
+    "pulp": "optlint.dialects.pulp_lp",
 }
 
 

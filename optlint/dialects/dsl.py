@@ -424,6 +424,7 @@ def recognise(wrapper: cst.MetadataWrapper, path: str) -> list[Model]:
     interp = Interpreter(wrapper, path, hooks, registry)
     interp.run()
     model = registry.finish()
+    model.dependencies = interp.files_read
     if not (model.objectives or model.constraints or model.notices):
         return []
     return [model]

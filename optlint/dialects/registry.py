@@ -56,7 +56,7 @@ class Registry:
     def constraint(self, interp, node: cst.CSTNode, part: cst.CSTNode | None, relation: str, left, right,
                    branch: tuple[str, ...], origin: str = "comparison") -> tuple:
         site = interp.site(node)
-        part_pos = interp.positions[part].start if part is not None else None
+        part_pos = interp.position(part).start if part is not None else None
         key = ("constraint", site.line, site.column, part_pos.line if part_pos else 0,
                part_pos.column if part_pos else 0, relation)
         con = self._constraints.get(key)
@@ -70,6 +70,10 @@ class Registry:
                 self._same_up_to_renaming(l, left) and self._same_up_to_renaming(r, right) for l, r, _ in con.variants):
             con.variants.append((left, right, branch))
         return key
+
+    def constraint_for(self, key) -> Constraint | None:
+        """The constraint registered under ``key`` (a key a ``constraint`` call returned)."""
+        return self._constraints.get(key)
 
     def psd(self, interp, node, left, right) -> tuple:
         return self.constraint(interp, node, None, "psd", left, right, (), origin="semidefinite")
