@@ -66,6 +66,7 @@ class FileResult:
     cell_map: list | None = None
     fingerprints: list[str] = field(default_factory=list)  # one per finding, same order
     accepted: int = 0  # findings accepted by inline comments
+    dependencies: list[str] = field(default_factory=list)  # other files the analysis read (sibling helpers)
 
 
 def _site(path: str, line: int, column: int = 1) -> Site:
@@ -126,7 +127,9 @@ def _check_file(path: str, options: Options) -> FileResult:
     dialect_of: dict[int, str] = {}
     if models:
         findings.extend(_run_rules(models, dialect_of))
-    return _finalise(path, findings, dialect_of, options, source)
+    result = _finalise(path, findings, dialect_of, options, source)
+    result.dependencies = sorted({d for m in models for d in getattr(m, "dependencies", ())})
+    return result
 
 
 def _early(path: str, findings: list[Finding], options: Options) -> FileResult:

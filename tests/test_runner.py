@@ -115,3 +115,21 @@ def test_rule_modules_import_without_sympy():
     code = "import sys; from optlint.rules import all_rules; all_rules(); print('sympy' in sys.modules)"
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
     assert out.stdout.strip() == "False", out.stderr
+
+
+def test_a_changed_sibling_helper_invalidates_the_cached_result(tmp_path):
+    """A loss helper in a module that imports no modelling library is read for the model's sake: the
+    cached result of the model file must not outlive an edit of that helper."""
+    (tmp_path / "losses_lib.py").write_text("def robust(r):\n    return r ** 2\n")
+    model = tmp_path / "fit.py"
+    model.write_text("import numpy as np\nfrom scipy.optimize import minimize\nfrom losses_lib import robust\n\n"
+                     "res = minimize(lambda w: np.sum(robust(w - 1.0)), np.zeros(3))\n")
+    options = Options()
+    first = runner.run([str(model)], options, 1, runner.Cache(str(tmp_path), options))
+    assert first[0].findings == [] and first[0].dependencies
+    (tmp_path / "losses_lib.py").write_text("def robust(r):\n    return np.minimum(r ** 2, 1.0)\n"
+                                            "import numpy as np\n")
+    cache = runner.Cache(str(tmp_path), options)
+    second = runner.run([str(model)], options, 1, cache)
+    assert cache.hits == 0
+    assert [f.rule for f in second[0].findings] in (["nonconvex-penalty"], ["nonconvex-objective"])
