@@ -153,14 +153,20 @@ def _parse_and_recognise(path, source, dialects, options):
     except RecursionError:
         return [Finding("syntax-error", _site(path, 1),
                         "file is nested too deeply for the parser; not checked")], []
+    from optlint.interp import OPTIONS
+
     wrapper = cst.MetadataWrapper(module, unsafe_skip_copy=True)
     models = []
-    for name in dialects:
-        recognise = load(name).recognise
-        if "options" in inspect.signature(recognise).parameters:
-            models.extend(recognise(wrapper, path, options=options))
-        else:
-            models.extend(recognise(wrapper, path))
+    token = OPTIONS.set(options)  # declared atoms and assumptions reach the interpreter this way
+    try:
+        for name in dialects:
+            recognise = load(name).recognise
+            if "options" in inspect.signature(recognise).parameters:
+                models.extend(recognise(wrapper, path, options=options))
+            else:
+                models.extend(recognise(wrapper, path))
+    finally:
+        OPTIONS.reset(token)
     return [], models
 
 

@@ -30,6 +30,7 @@ The interpreter registers objectives and constraints with the hooks' ``Registry`
 from __future__ import annotations
 
 import itertools
+from contextvars import ContextVar
 from dataclasses import dataclass, field
 from typing import Any, Callable
 
@@ -42,6 +43,9 @@ from optlint.ir import Site
 from optlint import guards
 from optlint.names import QualifiedNames
 from optlint.lift import DataSymbol, data, involves, is_expr, number_from_literal, safe_pow
+
+# The run's configuration (engine.Options) while a file is recognised; set by the engine.
+OPTIONS: ContextVar = ContextVar("optlint_options", default=None)
 
 MAX_ALTS = 12          # alternatives kept per evaluated expression
 MAX_INLINE_DEPTH = 6   # nested helper inlining
@@ -307,6 +311,7 @@ class Interpreter:
         self.ran_functions: set[int] = set()
         self.current_hint: str | None = None
         self.current_branch: tuple[str, ...] = ()  # branch labels of the call being evaluated
+        self.options = OPTIONS.get()  # the run's engine.Options (declared atoms, assumptions), or None
         self.branch_depth = 0  # inside if/try/match bodies: attribute writes keep older values too
         self.anchors: list[cst.CSTNode] = []  # call sites in this file that entered a sibling module
         self.foreign_names: dict[Any, tuple[Any, tuple[str, ...]]] = {}  # node -> (qualnames, star modules)
@@ -1106,8 +1111,30 @@ class Interpreter:
         exprs = [self.to_expr(a, None) for a in list(args) + list(kwargs.values())]
         exprs = [e for e in exprs if e is not None]
         if any(self.involves(e) for e in exprs):
-            return sympy.Function(name)(*exprs)
+            declared = self.declared_atom(name)
+            return declared(*exprs) if declared is not None else sympy.Function(name)(*exprs)
         return Opaque(self.code(node))
+
+    def declared_atom(self, name: str):
+        """The function class for ``name`` if the project declared its curvature ([tool.optlint.atoms])."""
+        atoms = getattr(self.options, "atoms", None)
+        if not atoms:
+            return None
+        q = name.lstrip(".")
+        for key, atom in atoms.items():
+            if key == q or key.endswith("." + q) or q.endswith("." + key):
+                from optlint.calculus.catalogue import declare_atom
+
+                return declare_atom(key, atom.curvature, atom.sign, tuple(atom.monotonicity))
+        return None
+
+    def assumed(self, text: str) -> dict:
+        """Sign assumptions the project configuration declares for a data name ([tool.optlint.assume])."""
+        options = self.options
+        if options is None or not getattr(options, "assumptions", None):
+            return {}
+        sign = options.assumed_sign(text) or options.assumed_sign(text.rsplit(".", 1)[-1])
+        return {sign: True} if sign else {}
 
     def builtin(self, qualname: str, args, kwargs, node):
         name = qualname[len("builtins."):] if qualname.startswith("builtins.") else None
@@ -1290,7 +1317,7 @@ class Interpreter:
         if isinstance(value, float):
             return sympy.Float(value)
         if isinstance(value, Opaque):
-            return data(value.text) if value is not NONE else None
+            return data(value.text, **self.assumed(value.text)) if value is not NONE else None
         if isinstance(value, ListVal):
             exprs = [self.to_expr(v, None) for v in value.items]
             if not exprs or any(e is None for e in exprs):

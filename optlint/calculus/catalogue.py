@@ -410,7 +410,35 @@ def family_of(node: sympy.Basic, args: Sequence[ArgInfo],
         if x.constant:
             return "quad_form:in-P"
         return "quad_form:unknown" if p.constant else "quad_form:both"
-    return FIXED.get(func)
+    return FIXED.get(func) or getattr(func, "declared_family", None)
+
+
+_DECLARED_CURVATURE = {"convex": V, "concave": K, "affine": A}
+_DECLARED_MONO = {"increasing": INC, "decreasing": DEC, "nonmonotone": NONE}
+_DECLARED_SIGN = {"positive": POS, "nonnegative": NN, "nonpositive": NP, "negative": NEG, "unknown": UNK}
+
+
+def declare_atom(name: str, curvature: str, sign: str = "unknown", monotonicity: Sequence[str] = ()) -> type:
+    """A function class for a project helper whose curvature the project declares (pyproject.toml).
+
+    The declaration is the project's assertion, not a proof of ours; findings that rest on it say
+    so through the derivation (rule "atom", source "declared in the project configuration").
+    """
+    family = f"declared:{name}"
+    if family not in FAMILIES:
+        monos = tuple(_DECLARED_MONO[m] for m in monotonicity) or (NONE,)
+        entry = Entry(family, family, _DECLARED_CURVATURE[curvature], monos, _fixed(_DECLARED_SIGN[sign]),
+                      "as declared", "declared in the project configuration ([tool.optlint.atoms])",
+                      variadic=len(monos) == 1)
+        FAMILIES[family] = (entry,)
+    cls = _DECLARED_CLASSES.get(name)
+    if cls is None:
+        cls = type(name.replace(".", "_"), (F.ModelFunction,), {"declared_family": family, "dsl_name": name})
+        _DECLARED_CLASSES[name] = cls
+    return cls
+
+
+_DECLARED_CLASSES: dict[str, type] = {}
 
 
 def _number_text(num: sympy.Number) -> str:
