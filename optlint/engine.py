@@ -145,8 +145,13 @@ def _parse_and_recognise(path, source, dialects, options):
 
     from optlint.dialects import load
 
+    from optlint.elide import elide_large_literals
+
+    text, elided = elide_large_literals(source.text)  # data tables: libcst would take minutes on them
+    if elided:
+        source.text = text  # the policy stage's tokenizer reads the same light text; lines stay as shown
     try:
-        module = cst.parse_module(source.text)
+        module = cst.parse_module(text)
     except cst.ParserSyntaxError as exc:
         line, column, message = _python_syntax_error(source.text) or (exc.raw_line, exc.raw_column + 1, exc.message)
         return [Finding("syntax-error", _site(path, line, column), f"file does not parse: {message}")], []
