@@ -36,3 +36,14 @@ def test_quick_start_has_exactly_two_commands():
 def test_readme_states_the_limits_of_a_clean_report():
     assert "aid to review, not a certificate" in README
     assert "licensed professional practice" in README
+
+
+def test_every_package_is_installed():
+    """A non-editable install ships only the packages pyproject.toml lists: keep the list complete."""
+    try:
+        import tomllib
+    except ImportError:  # Python 3.10
+        import tomli as tomllib
+    listed = set(tomllib.loads((ROOT / "pyproject.toml").read_text())["tool"]["setuptools"]["packages"])
+    found = {p.parent.relative_to(ROOT).as_posix().replace("/", ".") for p in (ROOT / "optlint").rglob("__init__.py")}
+    assert found | {"optlint.checks"} == listed
