@@ -35,7 +35,7 @@ class Family:
     surrogate: str
 
 
-CAPPED = Family("capped (truncated) loss", "a Huber loss (cp.huber) keeps the robustness and is convex")
+CAPPED = Family("capped (truncated) loss", "a Huber loss keeps the robustness and is convex")
 MIN_OF_CONVEX = Family("minimum of convex functions",
                        "there is no convex surrogate: solve one convex problem per piece, or use a "
                        "mixed-integer formulation")
