@@ -32,7 +32,7 @@ from __future__ import annotations
 import itertools
 from contextvars import ContextVar
 from dataclasses import dataclass, field
-from typing import Any, Callable
+from typing import Any
 
 import libcst as cst
 import sympy

@@ -30,6 +30,7 @@ from optlint.dialects.arrays import (ArrayHooks, DialectRegistry, common_sign, h
 from optlint.interp import (NONE, Alt, BoundFunc, ConsVal, DictVal, FuncVal, GlobalRef, InstanceVal, Interpreter,
                             ListVal, Opaque, PartialVal)
 from optlint.ir import Model
+from optlint.dialects.registry import run_dialect
 
 NAME = "algebraic"
 LIBRARY = "pyomo"
@@ -335,10 +336,4 @@ def _param_name(rule, k, default):
 def recognise(wrapper: cst.MetadataWrapper, path: str) -> list[Model]:
     registry = DialectRegistry(path, NAME)
     hooks = AlgebraicHooks(registry)
-    interp = Interpreter(wrapper, path, hooks, registry)
-    interp.run()
-    model = registry.finish()
-    model.dependencies = interp.files_read
-    if not (model.objectives or model.constraints or model.notices):
-        return []
-    return [model]
+    return run_dialect(wrapper, path, hooks, registry)

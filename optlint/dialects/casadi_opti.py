@@ -28,6 +28,7 @@ from optlint.dialects.arrays import (NUMPY, ArrayHooks, DialectRegistry, hint_na
 from optlint.interp import NONE, ConsVal, InstanceVal, Interpreter, ListVal, Opaque
 from optlint.ir import Model
 from optlint.lift import data
+from optlint.dialects.registry import run_dialect
 
 NAME = "casadi"
 LIBRARY = "casadi"
@@ -237,10 +238,4 @@ def _strongest(signs: list[str]) -> str:
 def recognise(wrapper: cst.MetadataWrapper, path: str) -> list[Model]:
     registry = DialectRegistry(path, NAME)
     hooks = CasadiHooks(registry)
-    interp = Interpreter(wrapper, path, hooks, registry)
-    interp.run()
-    model = hooks.finish()
-    model.dependencies = interp.files_read
-    if not (model.objectives or model.constraints or model.notices):
-        return []
-    return [model]
+    return run_dialect(wrapper, path, hooks, registry, finish=hooks.finish)

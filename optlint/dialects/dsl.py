@@ -17,8 +17,8 @@ import libcst as cst
 import sympy
 
 from optlint.calculus import functions as F
-from optlint.dialects.registry import Registry
-from optlint.interp import (NONE, ConsVal, DialectHooks, Interpreter, ListVal, ObjVal, Opaque, ProbVal)
+from optlint.dialects.registry import Registry, run_dialect
+from optlint.interp import ConsVal, DialectHooks, Interpreter, ListVal, ObjVal, Opaque, ProbVal
 from optlint.ir import Declaration, Model, Notice
 from optlint.lift import data
 
@@ -421,10 +421,4 @@ _NUMPY_LITERALS = ("numpy.array", "numpy.asarray", "numpy.diag", "numpy.eye")
 def recognise(wrapper: cst.MetadataWrapper, path: str) -> list[Model]:
     registry = Registry(path, NAME)
     hooks = DSLHooks(registry)
-    interp = Interpreter(wrapper, path, hooks, registry)
-    interp.run()
-    model = registry.finish()
-    model.dependencies = interp.files_read
-    if not (model.objectives or model.constraints or model.notices):
-        return []
-    return [model]
+    return run_dialect(wrapper, path, hooks, registry)

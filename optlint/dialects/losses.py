@@ -26,6 +26,7 @@ from optlint.calculus import functions as F
 from optlint.dialects.arrays import METHODS, NUMPY, ArrayHooks, DialectRegistry, clip, hint_name, log1p_of, log_of
 from optlint.interp import NONE, BoundFunc, FuncVal, InstanceVal, Interpreter, Opaque, PartialVal
 from optlint.ir import Model
+from optlint.dialects.registry import run_dialect
 
 NAME = "losses"
 
@@ -264,10 +265,4 @@ def _truthy(value) -> bool:
 def recognise(wrapper: cst.MetadataWrapper, path: str) -> list[Model]:
     registry = DialectRegistry(path, NAME, comparisons=False)
     hooks = LossHooks(registry)
-    interp = Interpreter(wrapper, path, hooks, registry)
-    interp.run()
-    model = registry.finish()
-    model.dependencies = interp.files_read
-    if not (model.objectives or model.constraints or model.notices):
-        return []
-    return [model]
+    return run_dialect(wrapper, path, hooks, registry)

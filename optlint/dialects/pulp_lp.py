@@ -19,6 +19,7 @@ from optlint.calculus import functions as F
 from optlint.dialects.arrays import ArrayHooks, DialectRegistry, hint_name, sign_from_bounds
 from optlint.interp import NONE, ConsVal, GlobalRef, InstanceVal, Interpreter, ListVal, Opaque
 from optlint.ir import Model
+from optlint.dialects.registry import run_dialect
 
 NAME = "pulp"
 LIBRARY = "pulp"
@@ -95,10 +96,4 @@ class PulpHooks(ArrayHooks):
 def recognise(wrapper: cst.MetadataWrapper, path: str) -> list[Model]:
     registry = DialectRegistry(path, NAME)
     hooks = PulpHooks(registry)
-    interp = Interpreter(wrapper, path, hooks, registry)
-    interp.run()
-    model = registry.finish()
-    model.dependencies = interp.files_read
-    if not (model.objectives or model.constraints or model.notices):
-        return []
-    return [model]
+    return run_dialect(wrapper, path, hooks, registry)

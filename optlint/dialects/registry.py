@@ -94,3 +94,16 @@ class Registry:
         self.model.objectives = [o for k, o in self._objectives.items() if k not in skipped_obj]
         self.model.constraints = [c for k, c in self._constraints.items() if k not in skipped_con]
         return self.model
+
+
+def run_dialect(wrapper: cst.MetadataWrapper, path: str, hooks, registry: Registry, finish=None) -> list[Model]:
+    """Run the shared interpreter with a dialect's hooks; the file's model, or [] when it has none."""
+    from optlint.interp import Interpreter
+
+    interp = Interpreter(wrapper, path, hooks, registry)
+    interp.run()
+    model = (finish or registry.finish)()
+    model.dependencies = interp.files_read
+    if not (model.objectives or model.constraints or model.notices):
+        return []
+    return [model]

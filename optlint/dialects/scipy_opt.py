@@ -29,6 +29,7 @@ from optlint.dialects.arrays import (ArrayHooks, DialectRegistry, common_sign, i
                                      kwarg_or_arg, sign_from_bounds)
 from optlint.interp import (NONE, BoundFunc, DictVal, FuncVal, Interpreter, ListVal, Opaque, PartialVal)
 from optlint.ir import Model
+from optlint.dialects.registry import run_dialect
 
 NAME = "scipy"
 PREFIX = "scipy.optimize."
@@ -301,10 +302,4 @@ def _residuals(interp, value):
 def recognise(wrapper: cst.MetadataWrapper, path: str) -> list[Model]:
     registry = DialectRegistry(path, NAME, comparisons=False)
     hooks = ScipyHooks(registry)
-    interp = Interpreter(wrapper, path, hooks, registry)
-    interp.run()
-    model = registry.finish()
-    model.dependencies = interp.files_read
-    if not (model.objectives or model.constraints or model.notices):
-        return []
-    return [model]
+    return run_dialect(wrapper, path, hooks, registry)
