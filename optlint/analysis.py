@@ -11,6 +11,12 @@ The question each model part asks:
 - ``A >> B`` and cone constraints need affine arguments.
 The difference of the two sides is judged, not each side alone: that is the mathematical question;
 the sides are analysed as well, only to phrase the message.
+
+When the rules fail (and no unknown function is involved) the escalation tries a normal form
+(optlint.evidence.rewrite) and a second-order proof (optlint.evidence.second_order); a proof
+makes the judgement ``ok`` and is kept in ``Judgement.proof``; the rules' failure stays beside it,
+so that the disciplined-convex dialect can be told its package rejects what is in fact convex
+(``undisciplined``).
 """
 
 from __future__ import annotations
@@ -37,10 +43,18 @@ class Judgement:
     result: Analysis
     failure: tuple[Derivation, str] | None  # None when the part is as it must be
     sides: tuple[Any, Any] | None = None  # (left, right) of a constraint variant
+    # Evidence of a proof beyond the rules when they fail; the failure is kept beside it.
+    proof: dict[str, Any] | None = None
 
     @property
     def ok(self) -> bool:
-        return self.failure is None
+        """The part is as it must be: proved by the rules or by the escalation."""
+        return self.failure is None or self.proof is not None
+
+    @property
+    def undisciplined(self) -> bool:
+        """Proved only beyond the rules: a disciplined-convex package would reject it as written."""
+        return self.failure is not None and self.proof is not None
 
     @property
     def unknown_only(self) -> bool:
@@ -69,6 +83,7 @@ class ModelAnalysis:
         self._judged: dict[int, list[Judgement]] = {}
         self._shared: dict[str, object] = {}
         self._witness: dict[int, dict | None] = {}
+        self._proofs: dict[Any, dict | None] = {}
 
     def analyse(self, expr) -> Analysis:
         hit = self._memo.get(expr)
@@ -112,9 +127,34 @@ class ModelAnalysis:
     def _verdict(self, item, want, expr, branch, sides=None) -> Judgement:
         result = self.analyse(expr)
         failure = None
+        proof = None
         if not satisfies(result.curvature, want):
             failure = blame(result.tree, want) or (result.tree, "the composition rules give no verdict")
-        return Judgement(item, want, expr, branch, result, failure, sides)
+            if not result.unknown_functions:
+                proof = self.escalate(expr, want)
+        return Judgement(item, want, expr, branch, result, failure, sides, proof)
+
+    def escalate(self, expr, want: Curvature) -> dict[str, Any] | None:
+        """A proof beyond the rules that ``expr`` has the wanted curvature, or None; memoised.
+
+        Normal forms first (optlint.evidence.rewrite: any size, data allowed), then the
+        second-order condition (optlint.evidence.second_order: small, data-free expressions).
+        """
+        if want is Curvature.AFFINE or not isinstance(expr, sympy.Basic):
+            return None
+        target = expr if want is Curvature.CONVEX else -expr
+        if target not in self._proofs:
+            from optlint.evidence import rewrite, second_order
+
+            try:
+                found = (rewrite.proves(target, self, Curvature.CONVEX)
+                         or second_order.prove_convex(target, self.model, self.facts))
+            except Exception:  # a failed proof attempt is no proof; it must never fail the file
+                found = None
+            if found is not None and want is Curvature.CONCAVE:
+                found = dict(found, tested="minus the expression (concave iff its negation is convex)")
+            self._proofs[target] = found
+        return self._proofs[target]
 
     def _judge_objective(self, obj: Objective) -> list[Judgement]:
         want = Curvature.CONVEX if obj.sense == "minimise" else Curvature.CONCAVE
@@ -213,6 +253,9 @@ def judgement_evidence(analysis: ModelAnalysis, j: Judgement) -> dict[str, Any]:
         node, reason = j.failure
         evidence["failing_step"] = dict(step_evidence(analysis, node), reason=reason)
         evidence["derivation"] = [step_evidence(analysis, n) for n in derivation_path(j.result.tree, node)]
+    if j.proof is not None:
+        evidence["proof"] = j.proof["method"]
+        evidence["escalation"] = j.proof
     witness = analysis.witness(j)
     if witness is not None:
         evidence["proof"] = "witness"
