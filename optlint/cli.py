@@ -55,6 +55,9 @@ def build_parser() -> argparse.ArgumentParser:
     rules = sub.add_parser("rules", help="list the rules with their default severity")
     rules.add_argument("--format", choices=("text", "markdown"), default="text",
                        help="markdown: the table the README carries")
+    derive = sub.add_parser("derive", help="print the derivation trees of the model parts at PATH:LINE")
+    derive.add_argument("location", metavar="PATH:LINE", help="a file and the line an objective or constraint starts on")
+    derive.add_argument("--no-color", action="store_true", help="plain text even on a terminal")
     explain = sub.add_parser("explain", help="explain one rule")
     explain.add_argument("rule", help="rule id, e.g. nonconvex-objective")
     return parser
@@ -94,6 +97,8 @@ def main(argv: list[str] | None = None) -> int:
         return cmd_check(args)
     if args.command == "rules":
         return cmd_rules(args.format)
+    if args.command == "derive":
+        return cmd_derive(args.location, args.no_color)
     if args.command == "explain":
         return cmd_explain(args.rule)
     parser.print_help(sys.stderr)
@@ -259,6 +264,25 @@ def cmd_rules(fmt: str = "text") -> int:
     for rule in rules.values():
         sys.stdout.write(f"{rule.id:<{width}}  {rule.severity:<7}  {rule.summary}\n")
     return EXIT_OK
+
+
+def cmd_derive(location: str, no_color: bool = False) -> int:
+    """Derivation trees (and witnesses) of the objectives/constraints starting at PATH:LINE.
+
+    Exit 0 when something was found there, 1 when nothing at that line is a model part, 2 when the
+    location is not PATH:LINE of a readable file."""
+    path, _, line_text = location.rpartition(":")
+    if not path or not line_text.isdigit() or not os.path.isfile(path):
+        sys.stderr.write(f"optlint: derive expects PATH:LINE of an existing file, got {location!r}\n")
+        return EXIT_USAGE
+    from optlint.report.text import make_console
+    from optlint.trees import trees_at
+
+    console = make_console(sys.stdout, no_color)
+    found = trees_at(path, int(line_text), console)
+    if found:
+        sys.stderr.write(f"optlint: no objective or constraint of a recognised model starts at {location}\n")
+    return found
 
 
 def cmd_explain(rule_id: str) -> int:

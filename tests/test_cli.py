@@ -161,3 +161,12 @@ def test_text_report_is_plain_without_a_terminal():
 def test_version_and_module_entry():
     proc = run_cli("--version")
     assert proc.returncode == 0 and proc.stdout.strip() == f"optlint {__version__}"
+
+
+def test_derive_prints_the_tree_at_a_line():
+    proc = run_cli("derive", "fixtures/tour/meters/calibration.py:21")
+    assert proc.returncode == 0
+    assert "objective: needs convex" in proc.stdout and "sqrt" in proc.stdout and "leaf-variable" in proc.stdout
+    assert run_cli("derive", "fixtures/tour/meters/calibration.py:2").returncode == 1
+    assert run_cli("derive", "no/such/file.py:3").returncode == 2
+    assert run_cli("derive", "fixtures/tour/meters/calibration.py").returncode == 2
