@@ -11,6 +11,8 @@ from __future__ import annotations
 
 import libcst as cst
 
+from optlint.names import dotted as _dotted
+
 # (operator, name on the left) -> sign the name has when the comparison holds
 _HOLDS_LEFT = {"GreaterThanEqual": "nonnegative", "GreaterThan": "positive",
                "LessThanEqual": "nonpositive", "LessThan": "negative"}
@@ -18,15 +20,6 @@ _HOLDS_RIGHT = {"LessThanEqual": "nonnegative", "LessThan": "positive",
                 "GreaterThanEqual": "nonpositive", "GreaterThan": "negative"}
 _NEGATION = {"nonnegative": "negative", "positive": "nonpositive", "nonpositive": "positive",
              "negative": "nonnegative"}
-
-
-def _dotted(node) -> str | None:
-    if isinstance(node, cst.Name):
-        return node.value
-    if isinstance(node, cst.Attribute):
-        base = _dotted(node.value)
-        return None if base is None else f"{base}.{node.attr.value}"
-    return None
 
 
 def _is_zero(node) -> bool:

@@ -432,7 +432,7 @@ class Interpreter:
             self.exec_try(stmt, env)
         elif isinstance(stmt, cst.With):
             for item in stmt.items:
-                alts = self.eval(item.item, env)
+                alts = self.evaluate(item.item, env)
                 if item.asname is not None:
                     self.bind(item.asname.name, alts, env, self.line(stmt))
             self.exec_block(_block_body(stmt.body), env)
@@ -442,7 +442,7 @@ class Interpreter:
             self.exec_class(stmt, env)
         elif isinstance(stmt, cst.Match):
             branches, labels = [], []
-            self.eval(stmt.subject, env)
+            self.evaluate(stmt.subject, env)
             self.branch_depth += 1
             try:
                 for case in stmt.cases:
@@ -462,7 +462,7 @@ class Interpreter:
         for dec in reversed(stmt.decorators):
             if not isinstance(dec.decorator, (cst.Call, cst.Attribute)):
                 continue  # @staticmethod, @property, ...: the function itself is what matters
-            for alt in self.eval(dec.decorator, env)[:1]:
+            for alt in self.evaluate(dec.decorator, env)[:1]:
                 result = self.hooks.decorate(self, alt.value, func, stmt)
                 if result is not NotImplemented:
                     value = result
@@ -471,7 +471,7 @@ class Interpreter:
     def exec_class(self, stmt: cst.ClassDef, env: Env) -> None:
         bases, parents = [], []
         for arg in stmt.bases:
-            for alt in self.eval(arg.value, env)[:1]:
+            for alt in self.evaluate(arg.value, env)[:1]:
                 if isinstance(alt.value, GlobalRef):
                     bases.append(alt.value.qualname)
                 elif isinstance(alt.value, ClassVal):
@@ -488,33 +488,33 @@ class Interpreter:
 
     def exec_small(self, small, env: Env) -> None:
         if isinstance(small, cst.Assign):
-            alts = self.eval(small.value, env, hint=_target_hint(small.targets[0].target))
+            alts = self.evaluate(small.value, env, hint=_target_hint(small.targets[0].target))
             for target in small.targets:
                 self.bind(target.target, alts, env, self.line(small))
         elif isinstance(small, cst.AnnAssign):
             if small.value is not None:
-                alts = self.eval(small.value, env, hint=_target_hint(small.target))
+                alts = self.evaluate(small.value, env, hint=_target_hint(small.target))
                 self.bind(small.target, alts, env, self.line(small))
         elif isinstance(small, cst.AugAssign):
             self.exec_augassign(small, env)
         elif isinstance(small, cst.Expr):
-            self.eval(small.value, env)
+            self.evaluate(small.value, env)
         elif isinstance(small, cst.Return):
-            alts = self.eval(small.value, env) if small.value is not None else [Alt(NONE)]
+            alts = self.evaluate(small.value, env) if small.value is not None else [Alt(NONE)]
             if self.returns:
                 self.returns[-1].extend(alts)
         elif isinstance(small, cst.Assert):
             self.condition_depth += 1
             try:
-                self.eval(small.test, env)
+                self.evaluate(small.test, env)
             finally:
                 self.condition_depth -= 1
             self.learn_signs(guards.facts(small.test, True), env)
 
     def exec_augassign(self, small: cst.AugAssign, env: Env) -> None:
         op = type(small.operator).__name__.replace("Assign", "")
-        target_alts = self.eval(small.target, env)
-        value_alts = self.eval(small.value, env)
+        target_alts = self.evaluate(small.target, env)
+        value_alts = self.evaluate(small.value, env)
         out: list[Alt] = []
         for t, v in self.product(target_alts, value_alts):
             hooked = self.hooks.augassign(self, op, t.value, v.value, small)
@@ -530,7 +530,7 @@ class Interpreter:
     def exec_if(self, stmt: cst.If, env: Env) -> None:
         self.condition_depth += 1
         try:
-            self.eval(stmt.test, env)
+            self.evaluate(stmt.test, env)
         finally:
             self.condition_depth -= 1
         then_env = env.copy()
@@ -559,11 +559,11 @@ class Interpreter:
 
     def exec_loop(self, stmt, env: Env) -> None:
         if isinstance(stmt, cst.For):
-            iter_alts = self.eval(stmt.iter, env)
+            iter_alts = self.evaluate(stmt.iter, env)
         else:
             self.condition_depth += 1
             try:
-                self.eval(stmt.test, env)
+                self.evaluate(stmt.test, env)
             finally:
                 self.condition_depth -= 1
             iter_alts = []
@@ -618,7 +618,7 @@ class Interpreter:
                         sub.append(Alt(Opaque(self.code(el.value)), a.branch, line))
                 self.bind(el.value, sub, env, line)
         elif isinstance(target, cst.Attribute):
-            owners = ([a.value for a in self.eval(target.value, env)]
+            owners = ([a.value for a in self.evaluate(target.value, env)]
                       if isinstance(target.value, (cst.Name, cst.Attribute)) else [])
             instances = [o for o in owners if isinstance(o, InstanceVal)]
             if instances:
@@ -662,7 +662,7 @@ class Interpreter:
         for combo in itertools.islice(itertools.product(*alt_lists), MAX_ALTS):
             yield combo
 
-    def eval(self, node, env: Env, hint: str | None = None) -> list[Alt]:
+    def evaluate(self, node, env: Env, hint: str | None = None) -> list[Alt]:
         if isinstance(node, cst.Call):
             return self.eval_Call(node, env, hint)
         method = getattr(self, "eval_" + type(node).__name__, None)
@@ -671,7 +671,7 @@ class Interpreter:
         return method(node, env)
 
     def eval_one(self, node, env: Env):
-        return self.eval(node, env)[0].value
+        return self.evaluate(node, env)[0].value
 
     def eval_Integer(self, node, env):
         num = number_from_literal("int", node.value)
@@ -735,7 +735,7 @@ class Interpreter:
                 return [Alt(GlobalRef(qn))]
         out = []
         name = node.attr.value
-        for b in self.eval(node.value, env):
+        for b in self.evaluate(node.value, env):
             if isinstance(b.value, InstanceVal) and name in b.value.attrs:
                 out.extend(Alt(a.value, _join(b.branch, a.branch), a.line) for a in b.value.attrs[name])
             else:
@@ -774,7 +774,7 @@ class Interpreter:
     def eval_Subscript(self, node, env):
         out = []
         idx_alts = self.eval_subscript_index(node, env)
-        for b, i in self.product(self.eval(node.value, env), idx_alts):
+        for b, i in self.product(self.evaluate(node.value, env), idx_alts):
             out.append(Alt(self.subscript(b.value, i.value, node), _join(b.branch, i.branch)))
         return out
 
@@ -783,7 +783,7 @@ class Interpreter:
         for el in node.slice:
             s = el.slice
             if isinstance(s, cst.Index):
-                parts.append([Alt(self.index_expr(a.value, s.value), a.branch) for a in self.eval(s.value, env)][:1])
+                parts.append([Alt(self.index_expr(a.value, s.value), a.branch) for a in self.evaluate(s.value, env)][:1])
             else:  # a slice lower:upper:step
                 bounds = []
                 for piece in (s.lower, s.upper, s.step):
@@ -830,7 +830,7 @@ class Interpreter:
     def eval_BinaryOperation(self, node, env):
         op = type(node.operator).__name__
         out = []
-        for l, r in self.product(self.eval(node.left, env), self.eval(node.right, env)):
+        for l, r in self.product(self.evaluate(node.left, env), self.evaluate(node.right, env)):
             out.append(Alt(self.binop(op, l.value, r.value, node), _join(l.branch, r.branch)))
         return out
 
@@ -881,7 +881,7 @@ class Interpreter:
     def eval_UnaryOperation(self, node, env):
         op = type(node.operator).__name__
         out = []
-        for a in self.eval(node.expression, env):
+        for a in self.evaluate(node.expression, env):
             expr = self.to_expr(a.value, None)
             if op == "Minus" and expr is not None:
                 out.append(Alt(-expr, a.branch))
@@ -892,16 +892,16 @@ class Interpreter:
         return out
 
     def eval_BooleanOperation(self, node, env):
-        self.eval(node.left, env)
-        self.eval(node.right, env)
+        self.evaluate(node.left, env)
+        self.evaluate(node.right, env)
         return [Alt(Opaque(self.code(node)))]
 
     def eval_Comparison(self, node, env):
-        left_alts = self.eval(node.left, env)
+        left_alts = self.evaluate(node.left, env)
         keys: list[Any] = []
         branches: list[str] = []
         for target in node.comparisons:
-            right_alts = self.eval(target.comparator, env)
+            right_alts = self.evaluate(target.comparator, env)
             op = type(target.operator).__name__
             rel = _REL.get(op)
             if rel is not None and not self.condition_depth:
@@ -921,16 +921,16 @@ class Interpreter:
     def eval_IfExp(self, node, env):
         self.condition_depth += 1
         try:
-            self.eval(node.test, env)
+            self.evaluate(node.test, env)
         finally:
             self.condition_depth -= 1
         line = self.line(node)
-        body = [Alt(a.value, _join(a.branch, (f"`if` side of the conditional on line {line}",))) for a in self.eval(node.body, env)]
-        other = [Alt(a.value, _join(a.branch, (f"`else` side of the conditional on line {line}",))) for a in self.eval(node.orelse, env)]
+        body = [Alt(a.value, _join(a.branch, (f"`if` side of the conditional on line {line}",))) for a in self.evaluate(node.body, env)]
+        other = [Alt(a.value, _join(a.branch, (f"`else` side of the conditional on line {line}",))) for a in self.evaluate(node.orelse, env)]
         return (body + other)[:MAX_ALTS]
 
     def eval_NamedExpr(self, node, env):
-        alts = self.eval(node.value, env)
+        alts = self.evaluate(node.value, env)
         self.bind(node.target, alts, env, self.line(node))
         return alts
 
@@ -949,7 +949,7 @@ class Interpreter:
     def eval_sequence(self, elements, env):
         per = []
         for el in elements:
-            alts = self.eval(el.value, env)
+            alts = self.evaluate(el.value, env)
             if isinstance(el, cst.StarredElement):
                 alts = [Alt(("*", a.value), a.branch) for a in alts]
             per.append(alts)
@@ -978,18 +978,18 @@ class Interpreter:
         local = Env(parent=env)
         comp = node.for_in
         while comp is not None:
-            iter_alts = self.eval(comp.iter, local)
+            iter_alts = self.evaluate(comp.iter, local)
             self.bind_loop_target(comp.target, iter_alts, local, self.line(comp))
             for cond in comp.ifs:
                 self.condition_depth += 1
                 try:
-                    self.eval(cond.test, local)
+                    self.evaluate(cond.test, local)
                 finally:
                     self.condition_depth -= 1
             comp = comp.inner_for_in
         self.loop_depth += 1
         try:
-            alts = self.eval(element, local)
+            alts = self.evaluate(element, local)
         finally:
             self.loop_depth -= 1
         return [Alt(ListVal([a.value], from_comprehension=True), a.branch) for a in alts]
@@ -998,11 +998,11 @@ class Interpreter:
         local = Env(parent=env)
         comp = node.for_in
         while comp is not None:
-            self.bind_loop_target(comp.target, self.eval(comp.iter, local), local, self.line(comp))
+            self.bind_loop_target(comp.target, self.evaluate(comp.iter, local), local, self.line(comp))
             comp = comp.inner_for_in
         self.loop_depth += 1
         try:
-            value = self.eval(node.value, local)[0].value
+            value = self.evaluate(node.value, local)[0].value
         finally:
             self.loop_depth -= 1
         return [Alt(DictVal({}, node, value))]
@@ -1017,11 +1017,11 @@ class Interpreter:
         return self.eval_comprehension(node, env, node.elt)
 
     def eval_Call(self, node, env, hint=None):
-        func_alts = self.eval(node.func, env)
+        func_alts = self.evaluate(node.func, env)
         arg_alts: list[list[Alt]] = []
         names: list[str | None] = []
         for arg in node.args:
-            alts = self.eval(arg.value, env)
+            alts = self.evaluate(arg.value, env)
             if arg.star == "*":
                 alts = [Alt(("*", a.value), a.branch) for a in alts]
                 names.append(None)
@@ -1187,14 +1187,14 @@ class Interpreter:
             elif p.name.value in kwargs:
                 env.vars[p.name.value] = [Alt(kwargs[p.name.value])]
             elif p.default is not None:
-                env.vars[p.name.value] = self.eval(p.default, func.closure)
+                env.vars[p.name.value] = self.evaluate(p.default, func.closure)
             else:
                 env.vars[p.name.value] = [Alt(Opaque(p.name.value))]
         for p in params.kwonly_params:
             if p.name.value in kwargs:
                 env.vars[p.name.value] = [Alt(kwargs[p.name.value])]
             elif p.default is not None:
-                env.vars[p.name.value] = self.eval(p.default, func.closure)
+                env.vars[p.name.value] = self.evaluate(p.default, func.closure)
             else:
                 env.vars[p.name.value] = [Alt(Opaque(p.name.value))]
         for star in (params.star_arg, params.star_kwarg):
@@ -1207,7 +1207,7 @@ class Interpreter:
         self.methods.append((func.owner, self_value) if func.owner is not None else (None, None))
         try:
             if isinstance(fn, cst.Lambda):
-                return self.eval(fn.body, env)
+                return self.evaluate(fn.body, env)
             self.returns.append([])
             try:
                 self.exec_block(_block_body(fn.body), env)
@@ -1290,7 +1290,7 @@ class Interpreter:
                     if isinstance(small, cst.Assign) and _is_literal(small.value):
                         for target in small.targets:
                             if isinstance(target.target, cst.Name):
-                                env.vars[target.target.value] = self.eval(small.value, env)
+                                env.vars[target.target.value] = self.evaluate(small.value, env)
         self.foreign_modules[path] = env
         return env
 

@@ -17,17 +17,18 @@ from libcst.metadata import QualifiedName, QualifiedNameSource
 _BUILTINS = frozenset(dir(builtins))
 
 
-def _dotted(node) -> str | None:
+def dotted(node) -> str | None:
+    """``a.b.c`` for a Name/Attribute chain, else None."""
     if isinstance(node, cst.Name):
         return node.value
     if isinstance(node, cst.Attribute):
-        base = _dotted(node.value)
+        base = dotted(node.value)
         return None if base is None else f"{base}.{node.attr.value}"
     return None
 
 
 def _module_name(node) -> str:
-    return _dotted(node) or ""
+    return dotted(node) or ""
 
 
 class _ImportCollector:
@@ -96,14 +97,14 @@ class QualifiedNames:
         key = id(node)
         if key in self._memo:
             return self._memo[key]
-        dotted = _dotted(node)
+        text = dotted(node)
         out: set[QualifiedName] = set()
-        if dotted is not None:
-            head, _, rest = dotted.partition(".")
+        if text is not None:
+            head, _, rest = text.partition(".")
             for target in self.aliases.get(head, ()):
                 out.add(QualifiedName(f"{target}.{rest}" if rest else target, QualifiedNameSource.IMPORT))
             if not out and head in _BUILTINS:
-                out.add(QualifiedName(f"builtins.{dotted}", QualifiedNameSource.BUILTIN))
+                out.add(QualifiedName(f"builtins.{text}", QualifiedNameSource.BUILTIN))
         self._memo[key] = out
         return out if out else default
 
