@@ -154,6 +154,9 @@ def _instance_is_exact(expr, model, facts) -> bool:
     return True
 
 
+MAX_EXPONENT = 8
+
+
 def prove_convex(expr, model, facts) -> dict[str, Any] | None:
     """Evidence that ``expr`` is convex on its declared domain, or None (no proof)."""
     if not isinstance(expr, sympy.Basic) or not _instance_is_exact(expr, model, facts):
@@ -168,6 +171,9 @@ def prove_convex(expr, model, facts) -> dict[str, Any] | None:
     f = _exact(sc.expr.xreplace(mapping))  # Piecewise domain guards settle under the signs here
     if _nodes(f) > MAX_NODES * 4 or not _smooth_on_domain(f):
         return None
+    if any(isinstance(n, sympy.Pow) and n.exp.is_Number and abs(n.exp) > MAX_EXPONENT
+           for n in sympy.preorder_traversal(f)):
+        return None  # expanding or differentiating (g)**1000 costs memory, not insight
     symbols = [mapping[s] for s in sc.symbols]
     quadratic = f.is_polynomial(*symbols) and sympy.Poly(f, *symbols).total_degree() <= 2
     if not quadratic and (len(symbols) > MAX_SYMBOLIC or _nodes(f) > MAX_NODES):
