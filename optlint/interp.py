@@ -42,6 +42,7 @@ from optlint.calculus import functions as F
 from optlint.ir import Site
 from optlint import guards
 from optlint.names import QualifiedNames
+from optlint.names import dotted as _dotted
 from optlint.lift import DataSymbol, data, involves, is_expr, number_from_literal, safe_pow
 
 # The run's configuration (engine.Options) while a file is recognised; set by the engine.
@@ -1432,15 +1433,6 @@ def _class_chain(cls: ClassVal):
     yield cls
     for parent in cls.parents:
         yield from _class_chain(parent)
-
-
-def _dotted(node) -> str | None:
-    if isinstance(node, cst.Name):
-        return node.value
-    if isinstance(node, cst.Attribute):
-        base = _dotted(node.value)
-        return None if base is None else f"{base}.{node.attr.value}"
-    return None
 
 
 def _head_name(node) -> str | None:
