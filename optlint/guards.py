@@ -76,3 +76,40 @@ def literal_sign(node) -> str | None:
     if value < 0:
         return "negative"
     return "nonnegative"
+
+
+# Arrays made of one literal sign: a multiplier initialised with zeros is nonnegative at the start.
+CONSTANT_SIGN_CALLS = {
+    **{f"{lib}.{fn}": "nonnegative" for lib in ("numpy", "torch", "jax.numpy") for fn in ("zeros", "zeros_like")},
+    **{f"{lib}.{fn}": "positive" for lib in ("numpy", "torch", "jax.numpy") for fn in ("ones", "ones_like")},
+}
+
+
+def projection_facts(node) -> list[tuple[str, str]]:
+    """(name, sign) after an in-place projection statement: ``lam.clamp_(min=0)``, ``lam.relu_()``,
+    ``np.maximum(lam, 0, out=lam)``, ``lam.data.clamp_(min=0)``."""
+    from optlint.dialects.lagrangian import projection, target_text
+
+    if not isinstance(node, cst.Call) or not isinstance(node.func, cst.Attribute):
+        return []
+    found = projection(node)
+    if found is None:
+        return []
+    side, inner = found
+    name = target_text(inner)
+    out = next((a.value for a in node.args if a.keyword is not None and a.keyword.value == "out"), None)
+    in_place = node.func.attr.value.endswith("_") or (out is not None and target_text(out) == name)
+    if name is None or not in_place or "[" in name:
+        return []
+    return [(name, "nonnegative" if side > 0 else "nonpositive")]
+
+
+def assigned_projection(target, value) -> list[tuple[str, str]]:
+    """(name, sign) after ``lam = np.maximum(0, ...)`` or ``lam = lam.clamp(min=0)``."""
+    from optlint.dialects.lagrangian import projection
+
+    found = projection(value) if isinstance(value, cst.Call) else None
+    name = _dotted(target)
+    if found is None or name is None:
+        return []
+    return [(name, "nonnegative" if found[0] > 0 else "nonpositive")]

@@ -65,6 +65,9 @@ class Alt:
     line: int = 0  # line of the assignment that produced it (for branch labels)
 
 
+_NO_GRAD = ("torch.no_grad", "torch.inference_mode")
+
+
 class Opaque:
     """A Python value the interpreter does not model; lifts to a DataSymbol named by its text."""
 
@@ -314,6 +317,7 @@ class Interpreter:
         self.current_branch: tuple[str, ...] = ()  # branch labels of the call being evaluated
         self.options = OPTIONS.get()  # the run's engine.Options (declared atoms, assumptions), or None
         self.branch_depth = 0  # inside if/try/match bodies: attribute writes keep older values too
+        self.no_grad_depth = 0  # inside `with torch.no_grad():` (values assigned there carry no gradient)
         self.anchors: list[cst.CSTNode] = []  # call sites in this file that entered a sibling module
         self.foreign_names: dict[Any, tuple[Any, tuple[str, ...]]] = {}  # node -> (qualnames, star modules)
         self.foreign_modules: dict[str, Env | None] = {}  # sibling module path -> its top-level names
@@ -432,11 +436,18 @@ class Interpreter:
         elif isinstance(stmt, cst.Try) or type(stmt).__name__ == "TryStar":
             self.exec_try(stmt, env)
         elif isinstance(stmt, cst.With):
+            no_grad = False
             for item in stmt.items:
                 alts = self.evaluate(item.item, env)
                 if item.asname is not None:
                     self.bind(item.asname.name, alts, env, self.line(stmt))
-            self.exec_block(_block_body(stmt.body), env)
+                call = item.item.func if isinstance(item.item, cst.Call) else item.item
+                no_grad |= any(q.name in _NO_GRAD for q in self.qualnames.get(call, ()))
+            self.no_grad_depth += no_grad
+            try:
+                self.exec_block(_block_body(stmt.body), env)
+            finally:
+                self.no_grad_depth -= no_grad
         elif isinstance(stmt, cst.FunctionDef):
             env.vars[stmt.name.value] = self.exec_def(stmt, env)
         elif isinstance(stmt, cst.ClassDef):
@@ -492,6 +503,8 @@ class Interpreter:
             alts = self.evaluate(small.value, env, hint=_target_hint(small.targets[0].target))
             for target in small.targets:
                 self.bind(target.target, alts, env, self.line(small))
+            if len(small.targets) == 1:  # lam = np.maximum(0, ...): data of that sign from here on
+                self.learn_signs(guards.assigned_projection(small.targets[0].target, small.value), env)
         elif isinstance(small, cst.AnnAssign):
             if small.value is not None:
                 alts = self.evaluate(small.value, env, hint=_target_hint(small.target))
@@ -500,6 +513,7 @@ class Interpreter:
             self.exec_augassign(small, env)
         elif isinstance(small, cst.Expr):
             self.evaluate(small.value, env)
+            self.learn_signs(guards.projection_facts(small.value), env)  # lam.clamp_(min=0)
         elif isinstance(small, cst.Return):
             alts = self.evaluate(small.value, env) if small.value is not None else [Alt(NONE)]
             if self.returns:
@@ -604,6 +618,9 @@ class Interpreter:
     # -- binding ----------------------------------------------------------------------------
 
     def bind(self, target, alts: list[Alt], env: Env, line: int) -> None:
+        if self.no_grad_depth:  # under torch.no_grad() no gradient flows: what is assigned is data
+            alts = [Alt(Opaque(self.code(target)), a.branch, line) if self.involves(self.to_expr(a.value, None))
+                    else a for a in alts]
         alts = [Alt(a.value, a.branch, line) for a in alts]
         if isinstance(target, cst.Name):
             env.vars[target.value] = alts
@@ -1054,6 +1071,8 @@ class Interpreter:
     def call(self, func, args, kwargs, node, hint) -> list[Alt]:
         self.current_hint = hint  # the assignment target names what a declaring call makes
         if isinstance(func, GlobalRef):
+            if func.qualname in guards.CONSTANT_SIGN_CALLS and not kwargs.get("requires_grad"):
+                return [Alt(data(self.code(node), **{guards.CONSTANT_SIGN_CALLS[func.qualname]: True}))]
             result = self.hooks.call(self, func.qualname, args, kwargs, node)
             if result is NotImplemented:
                 foreign = self.foreign(func.qualname)

@@ -74,6 +74,35 @@ class Notice:
 
 
 @dataclass
+class MultiplierStep:
+    """One statement that updates a multiplier by (a multiple of) its residual."""
+
+    site: Site
+    code: str
+    direction: int  # +1 ascent on the Lagrangian (right), -1 descent (wrong)
+    projection: int | None  # +1 onto [0, inf), -1 onto (-inf, 0], None: not projected
+    in_loop: bool
+
+
+@dataclass
+class MultiplierUse:
+    """A multiplier recognised by use: it multiplies a residual in a Lagrangian-shaped sum and is
+    updated by that residual, or is minimised jointly with the primal quantities."""
+
+    name: str
+    site: Site  # the sum it enters
+    code: str
+    entry: int  # +1: L = f + name*residual is minimised over the primal; -1: f - name*residual
+    residual: str
+    orientation: int | None  # +1: residual <= 0, -1: residual >= 0, 0: == 0, None: the code does not say
+    orientation_source: str
+    declared: str | None  # declared sign of a library parameter/variable, or None (no declaration)
+    declared_site: Site | None
+    steps: list[MultiplierStep] = field(default_factory=list)
+    joint: list[tuple[Site, str]] = field(default_factory=list)  # minimiser/optimizer holding it with the primal
+
+
+@dataclass
 class Model:
     """All objectives and constraints one recogniser found in one file."""
 
@@ -91,6 +120,7 @@ class Model:
     # library, e.g. that scipy's 'ineq' means fun(x) >= 0); the engine appends it to the message
     remarks: dict[tuple[int, int, str], str] = field(default_factory=dict)
     dependencies: list[str] = field(default_factory=list)  # sibling modules the analysis read (for caches)
+    multipliers: list[MultiplierUse] = field(default_factory=list)  # Lagrangian code (dialects/lagrangian.py)
 
     @property
     def variables(self) -> frozenset[Any]:

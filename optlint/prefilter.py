@@ -19,19 +19,45 @@ def _imports(library: bytes) -> re.Pattern[bytes]:
                       re.MULTILINE)
 
 
-SIGNATURES: dict[str, re.Pattern[bytes]] = {
+class _Lagrangian:
+    """Array or modelling code with a statement shaped like a multiplier update (``lam = lam + eta *
+    g``, ``lam += rho * r``, ``lam.add_(...)``) or a minimiser/optimizer call; line by line, so a
+    10 MB one-line file costs one pass, not a quadratic regular-expression search."""
+
+    imports = re.compile(rb"^[ \t]*(?:from[ \t]+(?:numpy|torch|jax|cvxpy|scipy)\b|import[ \t]+[^\n#]*"
+                         rb"\b(?:numpy|torch|jax|cvxpy|scipy)\b)", re.MULTILINE)
+    head = re.compile(rb"[ \t]*([A-Za-z_][\w.]*)(?:\[[^\]\n]*\])?[ \t]*([-+]?)=(?!=)")
+
+    def search(self, data: bytes) -> bool:
+        if not self.imports.search(data):
+            return False
+        if b"optim." in data or b"minimize" in data or b".add_(" in data or b".sub_(" in data:
+            return True
+        for line in data.splitlines():
+            if b"*" not in line or b"=" not in line or len(line) > 500:
+                continue
+            m = self.head.match(line)
+            if m is None:
+                continue
+            if m.group(2) or re.search(rb"\b" + re.escape(m.group(1).split(b".")[0]) + rb"\b", line[m.end():]):
+                return True
+        return False
+
+
+SIGNATURES: dict = {
     "dsl": _imports(rb"cvxpy"),
     "algebraic": _imports(rb"pyomo"),
     "scipy": _imports(rb"scipy"),
     "casadi": _imports(rb"casadi"),
     "losses": _imports(rb"torch"),
     "pulp": _imports(rb"pulp"),
+    "lagrangian": _Lagrangian(),
 }
 
 
 # The library name each signature needs: a notebook without any of them is skipped unparsed.
 WORDS: dict[str, bytes] = {"dsl": b"cvxpy", "algebraic": b"pyomo", "scipy": b"scipy", "casadi": b"casadi",
-                           "losses": b"torch", "pulp": b"pulp"}
+                           "losses": b"torch", "pulp": b"pulp", "lagrangian": b"import"}
 
 
 def dialects_in(data: bytes) -> tuple[str, ...]:

@@ -141,7 +141,7 @@ def test_rules_and_explain():
     listed = {line.split()[0] for line in proc.stdout.splitlines()}
     assert {"nonconvex-objective", "nonaffine-equality", "nonconvex-inequality", "strict-inequality",
             "unknown-curvature", "syntax-error", "model-skipped", "nonconvex-penalty", "weight-sign",
-            "weight-sign-unknown", "degenerate-constraint"} <= listed
+            "weight-sign-unknown", "degenerate-constraint", "multiplier-sign"} <= listed
     for rule in sorted(listed):
         text = run_cli("explain", rule).stdout
         assert text.startswith(rule) and "Reference:" in text and "Flagged:" in text and "Fine:" in text

@@ -16,6 +16,7 @@ DIALECT_MODULES = {
     "casadi": "optlint.dialects.casadi_opti",
     "losses": "optlint.dialects.losses",
     "pulp": "optlint.dialects.pulp_lp",
+    "lagrangian": "optlint.dialects.lagrangian",
 }
 
 

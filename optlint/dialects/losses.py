@@ -22,7 +22,9 @@ from __future__ import annotations
 import libcst as cst
 import sympy
 
+from optlint import guards
 from optlint.calculus import functions as F
+from optlint.lift import data
 from optlint.dialects.arrays import METHODS, NUMPY, ArrayHooks, DialectRegistry, clip, hint_name, log1p_of, log_of
 from optlint.interp import NONE, BoundFunc, FuncVal, InstanceVal, Interpreter, Opaque, PartialVal
 from optlint.ir import Model
@@ -188,6 +190,8 @@ _TENSOR_METHODS = {
 
 
 class LossHooks(ArrayHooks):
+    ascended: frozenset = frozenset()  # tensors an optimizer with maximize=True holds (multipliers)
+
     tables = {"torch.": TORCH}
 
     def call(self, interp: Interpreter, qualname, args, kwargs, node):
@@ -203,6 +207,10 @@ class LossHooks(ArrayHooks):
             self.minimised(interp, args[0], node)
             return Opaque(interp.code(node))
         if qualname.startswith("torch.") and _truthy(kwargs.get("requires_grad")):
+            if interp.current_hint in self.ascended:
+                # held by an optimizer with maximize=True: a multiplier, data for the minimised loss
+                sign = guards.CONSTANT_SIGN_CALLS.get(qualname)
+                return data(interp.code(node), **{sign: True}) if sign else Opaque(interp.code(node))
             return self.declare(interp, hint_name(interp, "weights"), node)
         return self.build(interp, qualname, args, kwargs, node)
 
@@ -263,6 +271,9 @@ def _truthy(value) -> bool:
 
 
 def recognise(wrapper: cst.MetadataWrapper, path: str) -> list[Model]:
+    from optlint.dialects.lagrangian import ascended_names
+
     registry = DialectRegistry(path, NAME, comparisons=False)
     hooks = LossHooks(registry)
+    hooks.ascended = ascended_names(wrapper.module)
     return run_dialect(wrapper, path, hooks, registry)
