@@ -182,3 +182,27 @@ def test_prefilter_passes_update_shaped_array_code_only():
     assert "lagrangian" not in dialects_in(b"import numpy as np\ntotal = np.sum(a) + 1\n")
     assert "lagrangian" not in dialects_in(b"lam = lam + eta * g(x)\n")  # no array library imported
     assert "lagrangian" not in dialects_in(b"import numpy as np\n" + b"x = x * 2 " * 1_000_000)  # one huge line
+
+
+FIXTURES = __import__("pathlib").Path(__file__).resolve().parents[1] / "fixtures"
+CLEAN_UPDATES = [  # (fixture, the clean update as written, the same with its step's sign flipped)
+    ("multipliers/cold_storage_dual_prices.py", "price = np.maximum(0.0, price + step", "price = np.maximum(0.0, price - step"),
+    ("multipliers/kiln_schedule_scipy.py", "mult = max(0.0, mult - step", "mult = max(0.0, mult + step"),
+    ("multipliers/quay_crane_torch.py", "lam_noise += dual_lr", "lam_noise -= dual_lr"),
+    ("multipliers/glasshouse_method_of_multipliers.py", "price = max(0.0, price + step", "price = max(0.0, price - step"),
+    ("multipliers/feeder_dual_prices_dsl.py", "price.value = np.maximum(price.value + step", "price.value = np.maximum(price.value - step"),
+    ("tour/pumps/licence_prices.py", "price = max(0.0, price + step", "price = max(0.0, price - step"),
+]
+
+
+@pytest.mark.parametrize("fixture, written, flipped", CLEAN_UPDATES, ids=[c[0] for c in CLEAN_UPDATES])
+def test_clean_look_alikes_are_silent_for_the_right_reason(tmp_path, fixture, written, flipped):
+    """A clean update is recognised (not overlooked): flipping its step's sign makes it a finding there."""
+    text = (FIXTURES / fixture).read_text()
+    lines = text.splitlines()
+    hits = [i for i, line in enumerate(lines, 1) if written in line and "expect:" not in line]
+    assert len(hits) == 1, hits
+    path = tmp_path / "mutated.py"
+    path.write_text(text.replace(lines[hits[0] - 1], lines[hits[0] - 1].replace(written, flipped)))
+    found = [f for f in check_file(str(path)).findings if f.rule == "multiplier-sign" and f.site.line == hits[0]]
+    assert len(found) == 1, [f.message for f in check_file(str(path)).findings]
