@@ -879,7 +879,8 @@ class Interpreter:
             if op == "Power":
                 return safe_pow(a, b)
             if op == "MatrixMultiply":
-                return F.matmul(a, b)
+                array_product = getattr(self.hooks, "matmul", None)  # numpy: v @ v is a sum of squares
+                return array_product(a, b) if array_product is not None else F.matmul(a, b)
         except (TypeError, ValueError, ZeroDivisionError, RecursionError):
             return Opaque(self.code(node))
         if self.involves(a) or self.involves(b):
@@ -1175,6 +1176,11 @@ class Interpreter:
             e = self.to_expr(args[0], None)
             if e is not None:
                 return sympy.Abs(e)
+        if name == "len" and len(args) == 1 and not kwargs:
+            # Whatever the object, Python's len is a nonnegative integer (positive if the project says so).
+            text = self.code(node)
+            return data(text, integer=True, **(self.assumed(text) if "positive" in self.assumed(text)
+                                               else {"nonnegative": True}))
         if name in ("max", "min") and args:
             items = self.iterate(args[0]) if len(args) == 1 else args
             exprs = [self.to_expr(i, None) for i in items]

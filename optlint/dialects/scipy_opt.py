@@ -54,6 +54,14 @@ _CALLABLE = (FuncVal, BoundFunc, PartialVal)
 
 
 class ScipyHooks(ArrayHooks):
+    @staticmethod
+    def matmul(a, b):
+        """``x @ x`` is ``np.dot(x, x)``: scipy's decision vector is one-dimensional (its
+        documentation: x0 is an array of shape (n,)), so this is a sum of squares."""
+        from optlint.dialects.arrays import _dot
+
+        return _dot(a, b)
+
     def call(self, interp: Interpreter, qualname, args, kwargs, node):
         if qualname == "builtins.dict" and not args:
             return DictVal(dict(kwargs), node)

@@ -150,3 +150,19 @@ c = np.array([1.0, 2.0, -1.0])
 linprog(c, A_ub=np.eye(3), b_ub=np.ones(3), bounds=[(0, None)] * 3)
 milp(c, constraints=LinearConstraint(np.ones((1, 3)), 0, 4), integrality=np.ones(3))
 """) == []
+
+
+def test_vector_times_itself_is_a_sum_of_squares(tmp_path):
+    # scipy's x is one-dimensional (minimize's documentation: x0 has shape (n,)), so x @ x = ||x||^2,
+    # convex (B&V 2004 §3.1.5, from memory); numpy agrees on a random point.
+    x = np.random.default_rng(0).normal(size=4)
+    assert np.isclose(x @ x, np.sum(x ** 2))
+    assert rules(tmp_path, HEADER + """
+def fit(c):
+    return minimize(lambda x: x @ x + c @ x, np.zeros(4))
+""") == []
+    found = rules(tmp_path, HEADER + """
+def fit(c):
+    return minimize(lambda x: -(x @ x) + c @ x, np.zeros(4))
+""")
+    assert found == [(6, "weight-sign")]  # a convex term subtracted under minimisation
