@@ -866,7 +866,16 @@ class Interpreter:
                 return result
         a, b = self.to_expr(left, None), self.to_expr(right, None)
         if a is None or b is None:
+            known = a if a is not None else b
+            if known is not None and self.involves(known):
+                # one operand is a model term, the other nothing we model: an unknown function of
+                # the term, never data (that would hide the variables from the analysis)
+                return sympy.Function(f"operator{_OP_TEXT.get(op, op)}")(known)
             return Opaque(self.code(node))
+        if op in ("Multiply", "Divide"):
+            hooked = self.hooks.arithmetic(self, op, a, b, node)
+            if hooked is not NotImplemented:
+                return hooked
         try:
             if op == "Add":
                 return a + b
@@ -1353,6 +1362,12 @@ class Interpreter:
             return exprs[0] if len(exprs) == 1 else F.stack(*exprs)
         if isinstance(value, GlobalRef):
             return data(value.qualname)
+        if isinstance(value, BoundMethod) and not isinstance(value.base, (ListVal, DictVal)):
+            # used as a number, `obj.attr` is an attribute, not a method: of data, it is data (A.T)
+            base = self.to_expr(value.base, None)
+            if base is not None and not self.involves(base):
+                text = f"{value.base_text}.{value.name}"
+                return data(text, **self.assumed(text))
         return None
 
     def _star_imports(self) -> tuple[str, ...]:

@@ -143,3 +143,24 @@ def test_constraint_directions(tmp_path, constraint, rule):
         prob = cp.Problem(cp.Minimize(cp.sum(x)), [{constraint}])
     """)
     assert found == ([] if rule is None else [(4, rule)])
+
+
+def test_transposed_data_times_a_variable_keeps_the_variable(tmp_path):
+    """Soundness: `A.T @ lam` once became one data symbol (the attribute T of data was not data),
+    hiding lam, so -sum_squares(A.T @ lam) under minimisation, concave (B&V 2004 §3.2.2, from
+    memory: a concave function of an affine map), passed silently."""
+    from optlint.engine import check_file
+
+    path = tmp_path / "dual.py"
+    path.write_text(
+        "import cvxpy as cp\n"
+        "def dual(A, b):\n"
+        "    lam = cp.Variable(3)\n"
+        "    return cp.Problem(cp.Minimize(-cp.sum_squares(A.T @ lam) + b @ lam))\n")
+    assert [f.rule for f in check_file(str(path)).findings] == ["weight-sign"]
+    path.write_text(
+        "import cvxpy as cp\n"
+        "def dual(A, b):\n"
+        "    lam = cp.Variable(3)\n"
+        "    return cp.Problem(cp.Minimize(cp.sum_squares(A.T @ lam) + b @ lam))\n")
+    assert check_file(str(path)).findings == []

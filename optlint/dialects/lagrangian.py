@@ -388,7 +388,8 @@ class _Scan:
                 for t in target.elements:
                     if isinstance(t.value, cst.Name):
                         piece = cst.Subscript(_positional(value)[0],
-                                              [cst.SubscriptElement(cst.Index(cst.Name(t.value.value)))])
+                                              [cst.SubscriptElement(cst.Slice(lower=cst.Name(t.value.value),
+                                                                              upper=None))])
                         scope.bindings.setdefault(t.value.value, []).append((order, piece))
 
     def _assignment(self, target, value, stmt, body, index, scope, in_loop, order) -> None:
@@ -586,7 +587,7 @@ class _Scan:
                 rest = factors[:i] + factors[i + 1:]
                 if all(isinstance(r, (cst.Integer, cst.Float)) for r in rest):
                     continue
-                if any(mult in _names(r) for r in rest):
+                if any(mult.split("[")[0] in _names(r) for r in rest):
                     continue  # w @ (l2 * w) is a quadratic, not a multiplier times a residual
                 others = [t for s, t in terms if t is not term]
                 if any(mult in _names(t) for t in others):
@@ -873,7 +874,25 @@ class _Facts:
         if s is None:
             return False
         derives = lambda n: _derives_from(n, {vector}, product, self.scan)  # noqa: E731
-        return derives(product.mult_node) and any(derives(n) for n in product.residual_nodes)
+        return (self._block(product) and derives(product.mult_node)
+                and any(derives(n) for n in product.residual_nodes))
+
+    def _block(self, product: _Product) -> bool:
+        """The multiplier is a block of the stacked vector (``z[n:]``, a name bound to a slice or to
+        a piece of ``np.split``); a single entry times another (``z[0] * z[1]``) is just a bilinear
+        term of an ordinary objective."""
+        node, depth = product.mult_node, 0
+        while isinstance(node, cst.Name) and depth < MAX_RESOLVE_DEPTH:
+            if node.value in product.subst:
+                node = product.subst[node.value]
+            else:
+                bound = self.scan.binding(product.scope, node.value, product.order + 1)
+                if bound is None:
+                    return False
+                node = bound[0]
+            depth += 1
+        return (isinstance(node, cst.Subscript) and len(node.slice) == 1
+                and isinstance(node.slice[0].slice, cst.Slice))
 
 
 def _derives_from(node, sources: set[str], product: _Product, scan: _Scan, depth: int = 0) -> bool:
