@@ -14,7 +14,9 @@ the constraint is slack and the 'Lagrangian' rewards violating the constraint. M
 and lam together (one scipy minimize over the stacked vector, one torch optimizer holding both) is
 wrong for the same reason: L is linear in lam, so it has a saddle at the solution, not a minimum,
 and descent in lam runs off to minus infinity. The signs flip consistently for the convention
-L = f - lam * c with c(x) >= 0.
+L = f - lam * c with c(x) >= 0. Where the optimality conditions are written out as constraints
+(a follower's KKT system in a bilevel model: lam * g(x) == 0 beside g(x) <= 0), a multiplier
+declared without a sign lets the system accept maxima and saddles of the inner problem too.
 """
 REFERENCE = ("Nocedal & Wright, Numerical Optimization, 2nd ed. (2006), §12.3 (KKT conditions: lambda_i >= 0 for "
              "inequalities); Boyd & Vandenberghe, Convex Optimization (2004), §5.1 and §5.5.3 (from memory).")
@@ -102,8 +104,91 @@ def _findings(use):
                       SEVERITY, _evidence(use, minimiser=code))
 
 
+def _canonical(expr):
+    """Index symbols are fresh per loop run (i#1, i#2): one placeholder per index name."""
+    import sympy
+
+    from optlint.lift import DataSymbol
+
+    subs = {s: sympy.Symbol(s.name.split("#")[0]) for s in expr.free_symbols
+            if isinstance(s, DataSymbol) and "#" in s.name}
+    return expr.xreplace(subs) if subs else expr
+
+
+def _root(factor, variables):
+    """The declared variable a factor is (``lam`` or ``index(lam, i)``), else None."""
+    from optlint.calculus import functions as F
+
+    if factor in variables:
+        return factor
+    if isinstance(factor, F.index) and factor.args[0] in variables:
+        return factor.args[0]
+    return None
+
+
+def _kkt_findings(model, analysis):
+    """Complementarity written as constraints: lam * g(x) == 0 beside g(x) <= 0 (a KKT system, e.g.
+    a follower's optimality conditions in a bilevel model) with lam declared without a sign and not
+    constrained to one: the system then also admits points where lam has the wrong sign (maxima and
+    saddles of the follower, not its optima)."""
+    import sympy
+
+    from optlint.findings import Finding
+    from optlint.printer import show
+
+    variables = model.variables
+    if not variables:
+        return
+    inequalities, signed = [], set()
+    for con in model.constraints:
+        if con.relation not in ("<=", "<", ">=", ">"):
+            continue
+        for left, right, _ in con.variants:
+            g = _canonical(left - right if con.relation in ("<=", "<") else right - left)  # g <= 0
+            inequalities.append((g, con))
+            coeff, rest = g.as_coeff_Mul()
+            root = _root(rest, variables)
+            if root is not None and coeff.is_Number and coeff != 0:
+                signed.add(root)  # lam >= 0 (or <= 0) written as a constraint
+    for con in model.constraints:
+        if con.relation != "==":
+            continue
+        for left, right, _ in con.variants:
+            e = _canonical(left - right)
+            if not isinstance(e, sympy.Mul):
+                continue
+            for factor in e.args:
+                root = _root(factor, variables)
+                if root is None:
+                    continue
+                residual = sympy.Mul(*[a for a in e.args if a is not factor])
+                if not (residual.free_symbols & variables) or root in residual.free_symbols:
+                    continue
+                match = next((c for g, c in inequalities
+                              if sympy.expand(g - residual) == 0 or sympy.expand(g + residual) == 0), None)
+                decl = model.declarations.get(root)
+                if match is None or root in signed or (decl is not None and decl.sign != "unknown"):
+                    continue
+                name = decl.name if decl is not None else str(root)
+                yield Finding(ID, con.site,
+                              f"`{name}` is the multiplier of the inequality at line {match.site.line} in this "
+                              f"complementarity condition, but it is declared without a sign and nothing constrains "
+                              f"one: add {name} >= 0 (nonnegative; with the stationarity written as grad f + "
+                              f"sum {name}_i grad g_i = 0 for g_i <= 0), otherwise the KKT system also admits "
+                              f"points where it has the wrong sign (maxima and saddles, not minima)",
+                              SEVERITY, {"multiplier": name, "complementarity": show(e),
+                                         "inequality_line": match.site.line, "required_sign": "nonnegative",
+                                         "in_loop": bool(getattr(con, "in_loop", False))})
+                break
+
+
 def check(model, analysis):
     seen = set()
+    for f in _kkt_findings(model, analysis):
+        key = (f.site.line, f.site.column)
+        if key not in seen:
+            seen.add(key)
+            yield f
     for use in model.multipliers:
         for f in _findings(use):
             key = (f.site.line, f.site.column)
