@@ -318,6 +318,7 @@ class Interpreter:
         self.options = OPTIONS.get()  # the run's engine.Options (declared atoms, assumptions), or None
         self.branch_depth = 0  # inside if/try/match bodies: attribute writes keep older values too
         self.no_grad_depth = 0  # inside `with torch.no_grad():` (values assigned there carry no gradient)
+        self.trip_counts: list[int | None] = []  # per enclosing loop: how often it runs, when known
         self.anchors: list[cst.CSTNode] = []  # call sites in this file that entered a sibling module
         self.foreign_names: dict[Any, tuple[Any, tuple[str, ...]]] = {}  # node -> (qualnames, star modules)
         self.foreign_modules: dict[str, Env | None] = {}  # sibling module path -> its top-level names
@@ -583,6 +584,7 @@ class Interpreter:
                 self.condition_depth -= 1
             iter_alts = []
         self.loop_depth += 1
+        self.trip_counts.append(self.trip_count(stmt.iter, iter_alts, env) if isinstance(stmt, cst.For) else None)
         try:
             for _ in range(2):
                 if isinstance(stmt, cst.For):
@@ -590,6 +592,7 @@ class Interpreter:
                 self.exec_block(_block_body(stmt.body), env)
         finally:
             self.loop_depth -= 1
+            self.trip_counts.pop()
         if stmt.orelse is not None:
             self.exec_block(_block_body(stmt.orelse.body), env)
 
@@ -1002,11 +1005,41 @@ class Interpreter:
                 items[key if isinstance(key, (str, sympy.Basic, bool)) else id(el)] = self.eval_one(el.value, env)
         return [Alt(DictVal(items, node))]
 
+    def trip_count(self, iter_node, iter_alts, env: Env) -> int | None:
+        """How many times a ``for`` runs, when the code says: a literal list or ``range`` of integers."""
+        if len(iter_alts) == 1 and isinstance(iter_alts[0].value, ListVal) and not iter_alts[0].value.from_comprehension:
+            return len(iter_alts[0].value.items)
+        if (isinstance(iter_node, cst.Call) and isinstance(iter_node.func, cst.Name) and iter_node.func.value == "range"
+                and 1 <= len(iter_node.args) <= 3 and all(a.keyword is None and not a.star for a in iter_node.args)):
+            bounds = []
+            for a in iter_node.args:
+                alts = self.evaluate(a.value, env)
+                value = self.to_expr(alts[0].value, None) if len(alts) == 1 else None
+                if value is None or not value.is_Integer or abs(int(value)) > 10**12:
+                    return None
+                bounds.append(int(value))
+            try:
+                return len(range(*bounds))
+            except ValueError:
+                return None
+        return None
+
+    def instances(self) -> int | None:
+        """Instances of a site reached now: the product of the enclosing loops' trip counts."""
+        total = 1
+        for count in self.trip_counts:
+            if count is None:
+                return None
+            total *= count
+        return total
+
     def eval_comprehension(self, node, env, element):
         local = Env(parent=env)
         comp = node.for_in
+        counts = []
         while comp is not None:
             iter_alts = self.evaluate(comp.iter, local)
+            counts.append(None if comp.ifs else self.trip_count(comp.iter, iter_alts, local))
             self.bind_loop_target(comp.target, iter_alts, local, self.line(comp))
             for cond in comp.ifs:
                 self.condition_depth += 1
@@ -1016,10 +1049,12 @@ class Interpreter:
                     self.condition_depth -= 1
             comp = comp.inner_for_in
         self.loop_depth += 1
+        self.trip_counts.extend(counts)
         try:
             alts = self.evaluate(element, local)
         finally:
             self.loop_depth -= 1
+            del self.trip_counts[len(self.trip_counts) - len(counts):]
         return [Alt(ListVal([a.value], from_comprehension=True), a.branch) for a in alts]
 
     def eval_DictComp(self, node, env):

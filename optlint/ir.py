@@ -61,6 +61,7 @@ class Constraint:
     code: str
     origin: str = "comparison"  # comparison | cone | ...
     in_loop: bool = False  # built inside a loop or comprehension: one site, many instances
+    instances: int | None = None  # how many, when every enclosing loop's trip count is known
 
 
 @dataclass
@@ -103,6 +104,24 @@ class MultiplierUse:
 
 
 @dataclass
+class WrittenOp:
+    """A product of two non-constant expressions, or a division by one, as the code writes it.
+
+    sympy folds x*x into x**2 and 1/x into x**-1, so the expression alone no longer shows an
+    operation a disciplined-convex package rejects; the DSL recogniser records each one that
+    reaches a model part (``Model.written``)."""
+
+    kind: str  # "product" | "division"
+    site: Site
+    code: str  # source text of the operation
+    left: Any  # the operands, lifted (sympy)
+    right: Any
+    left_code: str
+    right_code: str
+    value: Any  # left*right or left/right as sympy folds it
+
+
+@dataclass
 class Model:
     """All objectives and constraints one recogniser found in one file."""
 
@@ -121,6 +140,8 @@ class Model:
     remarks: dict[tuple[int, int, str], str] = field(default_factory=dict)
     dependencies: list[str] = field(default_factory=list)  # sibling modules the analysis read (for caches)
     multipliers: list[MultiplierUse] = field(default_factory=list)  # Lagrangian code (dialects/lagrangian.py)
+    # ("objective" | "constraint", line, column, variant index) -> the written operations reaching it
+    written: dict[tuple[str, int, int, int], list[WrittenOp]] = field(default_factory=dict)
 
     @property
     def variables(self) -> frozenset[Any]:

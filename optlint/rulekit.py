@@ -24,7 +24,9 @@ def site_findings(rule_id: str, analysis: ModelAnalysis, items: Iterable,
         if any(j.branch for j in failing) and len(analysis.judge(item)) > 1:
             evidence["failing_branches"] = [list(j.branch) for j in failing]
         if getattr(item, "in_loop", False):
-            evidence["instances"] = "one per iteration of the enclosing loop or comprehension"
+            count = getattr(item, "instances", None)
+            evidence["instances"] = (count if isinstance(count, int) and count > 1
+                                     else "one per iteration of the enclosing loop or comprehension")
         text = message(analysis, first)
         if first.branch and len(analysis.judge(item)) > len(failing):
             text += f" (when {'; '.join(first.branch)})"

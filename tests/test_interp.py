@@ -164,3 +164,25 @@ def test_transposed_data_times_a_variable_keeps_the_variable(tmp_path):
         "    lam = cp.Variable(3)\n"
         "    return cp.Problem(cp.Minimize(cp.sum_squares(A.T @ lam) + b @ lam))\n")
     assert check_file(str(path)).findings == []
+
+
+def test_loop_sites_carry_their_instance_count(tmp_path):
+    """One finding per source site; its evidence counts the instances when the loops say how many
+    (Python's own len(range(a, b, c)) is the reference), and says only "one per iteration" otherwise."""
+    from optlint.engine import check_file
+
+    path = tmp_path / "horizon.py"
+    path.write_text(
+        "import cvxpy as cp\n"
+        "HORIZON = 12\n"
+        "def plan(n):\n"
+        "    x = cp.Variable(HORIZON)\n"
+        "    cons = []\n"
+        "    for t in range(2, HORIZON, 3):\n"
+        "        cons.append(cp.square(x[t]) == 1)\n"
+        "    cons += [cp.abs(x[k]) >= 1 for k in [0, 1, 5]]\n"
+        "    for t in range(n):\n"
+        "        cons.append(cp.sqrt(x[t]) == 1)\n"
+        "    return cons\n")
+    got = {f.site.line: f.evidence.get("instances") for f in check_file(str(path)).findings}
+    assert got == {7: len(range(2, 12, 3)), 8: 3, 10: "one per iteration of the enclosing loop or comprehension"}

@@ -65,6 +65,9 @@ class Registry:
                              code=interp.code(node), origin=origin, in_loop=interp.loop_depth > 0)
             self._constraints[key] = con
             self.model.constraints.append(con)
+            con.instances = interp.instances() if interp.loop_depth > 0 else 1
+        elif con.instances != (interp.instances() if interp.loop_depth > 0 else 1):
+            con.instances = None  # reached from places with different counts: say only "many"
         con.in_loop = con.in_loop or interp.loop_depth > 0
         if len(con.variants) < MAX_VARIANTS and not any(
                 self._same_up_to_renaming(l, left) and self._same_up_to_renaming(r, right) for l, r, _ in con.variants):
