@@ -113,3 +113,44 @@ def assigned_projection(target, value) -> list[tuple[str, str]]:
     if found is None or name is None:
         return []
     return [(name, "nonnegative" if found[0] > 0 else "nonpositive")]
+
+
+def attribute_writes(fn: cst.FunctionDef, self_name: str) -> list[tuple[str, str | None]]:
+    """(attribute, sign or None) for each ``self.attr = value`` / ``self.attr += ...`` in a method:
+    the sign of a literal value, or of a name a guard earlier in the method establishes."""
+    out: list[tuple[str, str | None]] = []
+    known: dict[str, str] = {}
+    stack = [list(fn.body.body) if isinstance(fn.body, cst.IndentedBlock) else []]
+    while stack:
+        body = stack.pop()
+        for stmt in body:
+            if isinstance(stmt, cst.If):
+                if stmt.orelse is None and always_raises(stmt.body):
+                    known.update(facts(stmt.test, False))
+                stack.append(list(stmt.body.body) if isinstance(stmt.body, cst.IndentedBlock) else [])
+                continue
+            if not isinstance(stmt, cst.SimpleStatementLine):
+                for attr in ("body", "orelse", "finalbody"):
+                    part = getattr(stmt, attr, None)
+                    inner = getattr(part, "body", None)
+                    if isinstance(inner, cst.IndentedBlock):
+                        stack.append(list(inner.body))
+                    elif isinstance(inner, (list, tuple)):
+                        stack.append(list(inner))
+                continue
+            for small in stmt.body:
+                if isinstance(small, cst.Assert):
+                    known.update(facts(small.test, True))
+                targets, value = [], None
+                if isinstance(small, cst.Assign):
+                    targets, value = [t.target for t in small.targets], small.value
+                elif isinstance(small, (cst.AugAssign, cst.AnnAssign)):
+                    targets = [small.target]
+                for t in targets:
+                    if isinstance(t, cst.Attribute) and isinstance(t.value, cst.Name) and t.value.value == self_name:
+                        sign = None
+                        if value is not None:
+                            sign = literal_sign(value) or (known.get(value.value) if isinstance(value, cst.Name)
+                                                           else None)
+                        out.append((t.attr.value, sign))
+    return out

@@ -367,6 +367,7 @@ class Interpreter:
         if cls is not None and positional and not _decorated(fn, ("staticmethod", "classmethod")):
             # A method analysed on its own sees the attributes its class's __init__ sets.
             inst = self.new_instance(cls, [], {}, fn, run_init=fn.name.value != "__init__")
+            self.widen_reassigned(cls, inst, fn)
             env.vars[positional[0].name.value] = [Alt(inst)]
             owner = (cls, inst)
         self.returns.append([])
@@ -376,6 +377,31 @@ class Interpreter:
         finally:
             self.returns.pop()
             self.methods.pop()
+
+    def widen_reassigned(self, cls: ClassVal, inst: InstanceVal, analysed: cst.FunctionDef) -> None:
+        """Soundness for a method analysed on its own: an attribute that another method of the class
+        may reassign (``def set_risk(self, v): self.risk = v``) can hold that value too, with the
+        sign that method establishes (a literal, or a guard on the assigned name), else unknown."""
+        seen, stack, methods = set(), [cls], []
+        while stack:
+            c = stack.pop()
+            if id(c) in seen:
+                continue
+            seen.add(id(c))
+            methods.extend(m for name, m in c.methods.items() if name != "__init__" and m.node is not analysed)
+            stack.extend(c.parents)
+        for method in methods:
+            node = method.node
+            if not isinstance(node, cst.FunctionDef):
+                continue
+            params = list(node.params.posonly_params) + list(node.params.params)
+            if not params:
+                continue
+            for attr, sign in guards.attribute_writes(node, params[0].name.value):
+                if attr in inst.attrs:
+                    text = f"self.{attr}"
+                    inst.attrs[attr] = list(inst.attrs[attr]) + [
+                        Alt(data(text, **{sign: True}) if sign else Opaque(text))]
 
     def new_instance(self, cls: ClassVal, args, kwargs, node, run_init: bool = True) -> InstanceVal:
         inst = InstanceVal(cls)

@@ -186,3 +186,40 @@ def test_loop_sites_carry_their_instance_count(tmp_path):
         "    return cons\n")
     got = {f.site.line: f.evidence.get("instances") for f in check_file(str(path)).findings}
     assert got == {7: len(range(2, 12, 3)), 8: 3, 10: "one per iteration of the enclosing loop or comprehension"}
+
+
+CLASS_MODEL = '''
+import cvxpy as cp
+
+
+class Planner:
+    def __init__(self, prices, risk_weight):
+        assert risk_weight >= 0
+        self.risk = risk_weight
+        self.prices = prices
+
+    def set_risk(self, value):
+{setter}
+        self.risk = value
+
+    def plan(self):
+        sell = cp.Variable(4)
+        rev = self.prices @ sell
+        return cp.Problem(cp.Maximize(cp.sum(rev) - self.risk * cp.sum_squares(rev)))
+'''
+
+
+@pytest.mark.parametrize("setter, expected", [
+    ("        pass", ["weight-sign-unknown"]),  # set_risk can make the weight negative: no proof
+    ("        if value < 0:\n            raise ValueError('risk weight must be nonnegative')", []),
+    ("        assert value >= 0", []),
+])
+def test_attributes_another_method_reassigns_keep_only_the_sign_it_guarantees(tmp_path, setter, expected):
+    """A method analysed on its own saw only what __init__ set; another method may reassign the
+    attribute, so the weight's sign is proved only if that method guards it too (B&V 2004 §3.2.1,
+    from memory: only nonnegative weights preserve convexity)."""
+    from optlint.engine import check_file
+
+    path = tmp_path / "planner.py"
+    path.write_text(CLASS_MODEL.format(setter=setter))
+    assert [f.rule for f in check_file(str(path)).findings] == expected
