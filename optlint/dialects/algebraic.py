@@ -99,6 +99,7 @@ def local_name(qualname: str) -> str | None:
 
 
 class AlgebraicHooks(ArrayHooks):
+    rebounded: frozenset | None = frozenset()  # see rebounded_names
     def star_import_name(self, module, name):
         if module.startswith(LIBRARY) and name in _VOCABULARY:
             return f"{module}.{name}"
@@ -177,6 +178,8 @@ class AlgebraicHooks(ArrayHooks):
             elif "lb" in kwargs or "ub" in kwargs:
                 sign = sign_from_bounds(kwargs.get("lb"), kwargs.get("ub"))
         name = hint_name(interp, "var")
+        if self.rebounded is None or name in self.rebounded:
+            sign = "unknown"  # setlb/setub/domain= elsewhere can change the sign the declaration gave
         return self.declare(interp, name, node, sign=sign, attributes=attributes,
                             shape=tuple(args) if args else None)
 
@@ -336,4 +339,49 @@ def _param_name(rule, k, default):
 def recognise(wrapper: cst.MetadataWrapper, path: str) -> list[Model]:
     registry = DialectRegistry(path, NAME)
     hooks = AlgebraicHooks(registry)
+    hooks.rebounded = rebounded_names(wrapper.module)
     return run_dialect(wrapper, path, hooks, registry)
+
+
+_REBOUND_METHODS = frozenset({"setlb", "setub", "set_bounds", "set_lb", "set_ub"})
+_REBOUND_ATTRIBUTES = frozenset({"domain", "lb", "ub", "bounds", "lower", "upper"})
+
+
+def rebounded_names(module: cst.Module) -> frozenset | None:
+    """Names of variables whose bounds or domain the code changes after declaring them
+    (``m.x.setlb(-5)``, ``m.x[i].domain = pyo.Reals``, ``m.x.bounds = (...)``); None when such a
+    change is made through a name we cannot tie to one declaration (``for v in m.component_data_objects(): v.setlb(...)``),
+    so that no declared sign is trusted."""
+    out: set[str] = set()
+    unknown = False
+
+    def owner(node) -> str | None:
+        while isinstance(node, cst.Subscript):
+            node = node.value
+        if isinstance(node, cst.Attribute):
+            return node.attr.value
+        return None
+
+    class _V(cst.CSTVisitor):
+        def visit_Call(self, call):
+            nonlocal unknown
+            f = call.func
+            if isinstance(f, cst.Attribute) and f.attr.value in _REBOUND_METHODS:
+                name = owner(f.value)
+                if name is None:
+                    unknown = True
+                else:
+                    out.add(name)
+
+        def visit_AssignTarget(self, t):
+            nonlocal unknown
+            target = t.target
+            if isinstance(target, cst.Attribute) and target.attr.value in _REBOUND_ATTRIBUTES:
+                name = owner(target.value)
+                if name is None:
+                    unknown = True
+                else:
+                    out.add(name)
+
+    module.visit(_V())
+    return None if unknown else frozenset(out)

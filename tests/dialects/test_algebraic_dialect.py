@@ -109,3 +109,29 @@ b.c = pmo.constraint(b.x + b.y <= 3)
 b.r = pmo.constraint(lb=1, body=b.x * b.y, ub=2)
 b.o = pmo.objective(pmo.log(b.x) + b.y, sense=pmo.maximize)
 """) == [(7, "nonconvex-inequality"), (7, "nonconvex-inequality")]
+
+
+REBOUND = """
+import pyomo.environ as pyo
+
+def build():
+    m = pyo.ConcreteModel()
+    m.I = pyo.RangeSet(3)
+    m.x = pyo.Var(m.I, within=pyo.NonNegativeReals)
+    m.y = pyo.Var(within=pyo.NonNegativeReals)
+    {change}
+    m.obj = pyo.Objective(expr=sum(m.x[i] ** 3 for i in m.I) + m.y ** 3)
+    return m
+"""
+
+
+@pytest.mark.parametrize("change, expected", [
+    ("pass", []),
+    ("m.x[2].setlb(-5.0)", [(10, "nonconvex-objective")]),
+    ("m.y.domain = pyo.Reals", [(10, "nonconvex-objective")]),
+    ("for v in m.component_data_objects(pyo.Var):\n        v.setlb(None)", [(11, "nonconvex-objective")]),
+])
+def test_bounds_changed_after_declaration_drop_the_declared_sign(tmp_path, change, expected):
+    """x**3 is convex only on x >= 0 (B&V 2004 §3.1.5, powers, from memory): a sign the declaration
+    gave but a later setlb/domain change takes away proves nothing."""
+    assert rules(tmp_path, REBOUND.format(change=change)) == expected
