@@ -24,8 +24,11 @@ must satisfy e·o·M >= 0.
 
 from __future__ import annotations
 
+import dataclasses
+
 import libcst as cst
 import sympy
+from sympy.core.function import AppliedUndef
 
 from optlint.ir import Model, MultiplierStep, MultiplierUse, Site
 from optlint.names import QualifiedNames, dotted
@@ -43,6 +46,7 @@ _OPTIMISERS = {"SGD", "Adam", "AdamW", "RMSprop", "Adagrad", "Adadelta", "Adamax
                "Rprop", "SparseAdam"}
 _SIGN_KWARGS = {"nonneg": 1, "pos": 1, "nonpos": -1, "neg": -1}
 MAX_RESOLVE_DEPTH = 3
+_PRIMES = (2, 3, 5, 7, 11, 13, 17, 19, 23, 29, 31)
 _LIBRARIES = {"np", "numpy", "torch", "cp", "cvxpy", "jnp", "jax.numpy"}
 
 
@@ -225,15 +229,24 @@ def relation(candidate, reference) -> int:
 
     Symbols left in the ratio are step sizes and scalings; they are taken as positive (common
     practice: a step size is a positive number), numbers decide the sign."""
-    if reference == 0 or candidate == 0:
+    if reference == 0 or candidate == 0 or not reference.free_symbols <= candidate.free_symbols:
         return 0
     try:
-        ratio = sympy.cancel(sympy.expand(candidate) / sympy.expand(reference))
-    except (sympy.PolynomialError, TypeError, ValueError, ZeroDivisionError):
-        return 0
-    if ratio.free_symbols & (reference.free_symbols - candidate.free_symbols):
-        return 0
-    if ratio.free_symbols & reference.free_symbols:
+        q, r = sympy.expand(candidate), sympy.expand(reference)
+        # matmul(A, x) and the like become one symbol each, the same in both
+        apps = {a: sympy.Dummy() for a in (q.atoms(AppliedUndef) | r.atoms(AppliedUndef))}
+        q, r = q.xreplace(apps), r.xreplace(apps)
+        own = r.free_symbols
+        # the ratio, read off at one point of the reference's own symbols, then checked exactly
+        point = {sym: sympy.Rational(_PRIMES[i % len(_PRIMES)], _PRIMES[(i + 3) % len(_PRIMES)])
+                 for i, sym in enumerate(sorted(own, key=str))}
+        at = r.xreplace(point)
+        if at == 0:
+            return 0
+        ratio = sympy.expand(q.xreplace(point) / at)
+        if ratio.free_symbols & own or sympy.expand(q - ratio * r) != 0:
+            return 0
+    except (TypeError, ValueError, ZeroDivisionError):
         return 0
     coeff, rest = ratio.as_coeff_Mul()
     factors = sympy.Mul.make_args(rest)
@@ -467,63 +480,52 @@ class _Scan:
     # -- expressions -------------------------------------------------------------------------
 
     def expression(self, node, scope, in_loop, context: int | None = None) -> None:
-        """``context``: +1 where a comparison states a constraint that holds (an assert, a
-        constraint list, ``np.all(...)``), -1 where it detects a violation (``np.any(r > tol)``)."""
-        scan = self
+        """Walk one expression. ``context``: +1 where a comparison states a constraint that holds
+        (an assert, a constraint list, ``np.all(...)``), -1 where it detects a violation
+        (``np.any(r > tol)``). A plain walk over the nodes' fields: libcst's visitors rebuild every
+        node they pass, which cost several parses per file."""
         contexts: list[int | None] = [context]
-
-        class _V(cst.CSTVisitor):
-            def visit_List(self, n):
-                contexts.append(1)
-
-            def leave_List(self, n):
+        stack: list[tuple[cst.CSTNode, bool]] = [(node, False)]
+        while stack:
+            n, leaving = stack.pop()
+            if leaving:
                 contexts.pop()
-
-            def visit_Tuple(self, n):
+                continue
+            if isinstance(n, (cst.List, cst.Tuple)):
                 contexts.append(1)
-
-            def leave_Tuple(self, n):
-                contexts.pop()
-
-            def visit_Call(self, call: cst.Call):
-                scan.call(call, scope)
-                tail = _tail(call.func)
+                stack.append((n, True))
+            elif isinstance(n, cst.Call):
+                self.call(n, scope)
+                tail = _tail(n.func)
                 contexts.append(1 if tail in ("all", "append", "Constraint") else -1 if tail == "any"
-                                else contexts[-1] if tail in ("bool",) else None)
+                                else contexts[-1] if tail == "bool" else None)
+                stack.append((n, True))
+            elif isinstance(n, cst.Dict):
+                self.dict_constraint(n)
+            elif isinstance(n, cst.Lambda):
+                inner = _Scope(n, scope, [p.name.value for p in n.params.params])
+                self.scope_of[id(n)] = inner
+                self.expression(n.body, inner, in_loop, contexts[-1])
+                continue
+            elif isinstance(n, cst.BinaryOperation) and isinstance(n.operator, (cst.Add, cst.Subtract)):
+                self.sum(n, scope)
+                stack.extend((term, False) for _, term in reversed(_terms(n, 1)))
+                continue
+            elif isinstance(n, cst.Comparison) and contexts[-1] is not None:
+                self.comparison(n, contexts[-1], scope)
+            stack.extend((c, False) for c in reversed(_children(n)))
 
-            def leave_Call(self, call):
-                contexts.pop()
-
-            def visit_Lambda(self, lam: cst.Lambda):
-                params = [p.name.value for p in lam.params.params]
-                inner = _Scope(lam, scope, params)
-                scan.scope_of[id(lam)] = inner
-                scan.expression(lam.body, inner, in_loop)
-                return False
-
-            def visit_BinaryOperation(self, op: cst.BinaryOperation):
-                if isinstance(op.operator, (cst.Add, cst.Subtract)):
-                    scan.sum(op, scope)
-                    for _, term in _terms(op, 1):
-                        term.visit(self)
-                    return False
-                return True
-
-            def visit_Comparison(self, cmp: cst.Comparison):
-                if contexts[-1] is None:
-                    return
-                left = cmp.left
-                for c in cmp.comparisons:
-                    if isinstance(c.operator, (cst.LessThan, cst.LessThanEqual, cst.GreaterThan,
-                                               cst.GreaterThanEqual, cst.Equal)):
-                        rel = ("<=" if isinstance(c.operator, (cst.LessThan, cst.LessThanEqual)) else
-                               ">=" if isinstance(c.operator, (cst.GreaterThan, cst.GreaterThanEqual)) else "==")
-                        if contexts[-1] < 0:  # r > tol detects a violation of r <= tol
-                            rel = {"<=": ">=", ">=": "<=", "==": "=="}[rel]
-                        scan.comparisons.append((left, c.comparator, rel, scope, scan.order, cmp))
-                    left = c.comparator
-
-        node.visit(_V())
+    def comparison(self, cmp: cst.Comparison, context: int, scope) -> None:
+        left = cmp.left
+        for c in cmp.comparisons:
+            if isinstance(c.operator, (cst.LessThan, cst.LessThanEqual, cst.GreaterThan, cst.GreaterThanEqual,
+                                       cst.Equal)):
+                rel = ("<=" if isinstance(c.operator, (cst.LessThan, cst.LessThanEqual)) else
+                       ">=" if isinstance(c.operator, (cst.GreaterThan, cst.GreaterThanEqual)) else "==")
+                if context < 0:  # r > tol detects a violation of r <= tol
+                    rel = {"<=": ">=", ">=": "<=", "==": "=="}[rel]
+                self.comparisons.append((left, c.comparator, rel, scope, self.order, cmp))
+            left = c.comparator
 
     def call(self, call: cst.Call, scope) -> None:
         self.calls.append((call, scope, self.order))
@@ -551,25 +553,18 @@ class _Scan:
                 elif _is_zero(lb) and _is_zero(ub):
                     self.scipy_constraints.append((_text(fun), 0, call))
 
-    def dict_constraints(self) -> None:
+    def dict_constraint(self, d: cst.Dict) -> None:
         """{'type': 'ineq', 'fun': g} means g(x) >= 0 (scipy.optimize.minimize documentation)."""
-        class _D(cst.CSTVisitor):
-            def __init__(self, out):
-                self.out = out
-
-            def visit_Dict(self, d: cst.Dict):
-                kind = fun = None
-                for el in d.elements:
-                    if isinstance(el, cst.DictElement) and isinstance(el.key, cst.SimpleString):
-                        key = el.key.evaluated_value
-                        if key == "type" and isinstance(el.value, cst.SimpleString):
-                            kind = el.value.evaluated_value
-                        elif key == "fun":
-                            fun = el.value
-                if fun is not None and kind in ("ineq", "eq"):
-                    self.out.append((_text(fun), -1 if kind == "ineq" else 0, d))
-
-        self.module.visit(_D(self.scipy_constraints))
+        kind = fun = None
+        for el in d.elements:
+            if isinstance(el, cst.DictElement) and isinstance(el.key, cst.SimpleString):
+                key = el.key.evaluated_value
+                if key == "type" and isinstance(el.value, cst.SimpleString):
+                    kind = el.value.evaluated_value
+                elif key == "fun":
+                    fun = el.value
+        if fun is not None and kind in ("ineq", "eq"):
+            self.scipy_constraints.append((_text(fun), -1 if kind == "ineq" else 0, d))
 
     def sum(self, op: cst.BinaryOperation, scope) -> None:
         terms = _terms(op, 1)
@@ -608,23 +603,68 @@ def _is_infinite(node, sign: int) -> bool:
     return False
 
 
-def _names(node) -> set[str]:
+_NAMES_MEMO: dict[int, tuple[cst.CSTNode, frozenset]] = {}
+
+
+def _names(node) -> frozenset:
+    """Names and dotted names a node mentions (lambdas excluded); memoised per node (nodes are
+    immutable, the memo keeps them alive so ids are not reused during a file)."""
+    hit = _NAMES_MEMO.get(id(node))
+    if hit is not None and hit[0] is node:
+        return hit[1]
+    found = frozenset(_collect_names(node))
+    _NAMES_MEMO[id(node)] = (node, found)
+    return found
+
+
+def _collect_names(node) -> set[str]:
     out: set[str] = set()
-
-    class _N(cst.CSTVisitor):
-        def visit_Lambda(self, n):
-            return False  # a lambda's body runs elsewhere (inside a minimiser)
-
-        def visit_Name(self, n):
+    stack = [node]
+    while stack:
+        n = stack.pop()
+        if isinstance(n, cst.Lambda):
+            continue  # a lambda's body runs elsewhere (inside a minimiser)
+        if isinstance(n, cst.Name):
             out.add(n.value)
-
-        def visit_Attribute(self, n):
+            continue
+        if isinstance(n, cst.Attribute):
             t = target_text(n)
             if t:
                 out.add(t)
-
-    node.visit(_N())
+        stack.extend(_children(n))
     return out
+
+
+_NOT_WALKED = (cst.SimpleWhitespace, cst.ParenthesizedWhitespace, cst.Newline, cst.Comment, cst.EmptyLine,
+               cst.TrailingWhitespace, cst.LeftParen, cst.RightParen, cst.LeftSquareBracket, cst.RightSquareBracket,
+               cst.LeftCurlyBrace, cst.RightCurlyBrace, cst.Comma, cst.Dot, cst.Colon, cst.AssignEqual,
+               cst.Semicolon, cst.BaseBinaryOp, cst.BaseUnaryOp, cst.BaseCompOp, cst.BaseBooleanOp, cst.BaseAugOp)
+_FIELDS: dict[type, tuple[str, ...]] = {}
+
+
+def _children(node) -> list:
+    """Child nodes of interest (no whitespace, brackets or operator tokens), in source order."""
+    names = _FIELDS.get(type(node))
+    if names is None:
+        names = _FIELDS[type(node)] = tuple(f.name for f in dataclasses.fields(node))
+    out = []
+    for name in names:
+        v = getattr(node, name)
+        if isinstance(v, (list, tuple)):
+            out.extend(x for x in v if _walked(type(x)))
+        elif _walked(type(v)):
+            out.append(v)
+    return out
+
+
+_WALKED: dict[type, bool] = {}
+
+
+def _walked(t: type) -> bool:
+    hit = _WALKED.get(t)
+    if hit is None:
+        hit = _WALKED[t] = issubclass(t, cst.CSTNode) and not issubclass(t, _NOT_WALKED)
+    return hit
 
 
 def _terms(op, sign) -> list[tuple[int, cst.CSTNode]]:
@@ -994,23 +1034,30 @@ def ascended_names(module: cst.Module) -> frozenset:
     scan = _Scan(module)
     out: set[str] = set()
 
-    class _O(cst.CSTVisitor):
-        def visit_Call(self, call: cst.Call):
-            flag = _kw(call, "maximize")
+    stack = [module]
+    while stack:
+        node = stack.pop()
+        if isinstance(node, cst.Call):
+            flag = _kw(node, "maximize")
             if isinstance(flag, cst.Name) and flag.value == "True" and any(
-                    q.startswith("torch.optim.") for q in scan.qualified(call.func)):
-                out.update(_optimiser_params(call, scan, scan.root, 0))
-
-    module.visit(_O())
+                    q.startswith("torch.optim.") for q in scan.qualified(node.func)):
+                out.update(_optimiser_params(node, scan, scan.root, 0))
+        stack.extend(_children(node))
     return frozenset(out)
 
 
 def recognise(wrapper: cst.MetadataWrapper, path: str) -> list[Model]:
+    try:
+        return _recognise(wrapper, path)
+    finally:
+        _NAMES_MEMO.clear()
+
+
+def _recognise(wrapper: cst.MetadataWrapper, path: str) -> list[Model]:
     scan = _Scan(wrapper.module)
     scan.run()
     if not scan.products:
         return []
-    scan.dict_constraints()
     uses = _Facts(scan, wrapper, path).facts()
     if not uses:
         return []
