@@ -614,7 +614,7 @@ class Interpreter:
         try:
             for _ in range(2):
                 if isinstance(stmt, cst.For):
-                    self.bind_loop_target(stmt.target, iter_alts, env, self.line(stmt))
+                    self.bind_loop_target(stmt.target, iter_alts, env, self.line(stmt), stmt.iter)
                 self.exec_block(_block_body(stmt.body), env)
         finally:
             self.loop_depth -= 1
@@ -685,7 +685,18 @@ class Interpreter:
         elif isinstance(target, cst.StarredElement):
             self.bind(target.value, [Alt(Opaque(self.code(target.value)))], env, line)
 
-    def bind_loop_target(self, target, iter_alts: list[Alt], env: Env, line: int) -> None:
+    def bind_loop_target(self, target, iter_alts: list[Alt], env: Env, line: int, iter_node=None) -> None:
+        """Bind a loop target. A target is integer data only where the iterable says so (``range``,
+        the count of ``enumerate``): a float loop variable taken as an integer would let sympy
+        simplify sin(pi*k) to 0."""
+        callee = iter_node.func.value if (isinstance(iter_node, cst.Call)
+                                          and isinstance(iter_node.func, cst.Name)) else None
+        integer = {"integer": True} if callee == "range" else {"real": True}
+        if isinstance(target, (cst.Tuple, cst.List)):
+            for k, el in enumerate(target.elements):
+                sub = cst.Call(cst.Name("range"), []) if callee == "enumerate" and k == 0 else None
+                self.bind_loop_target(el.value, [], env, line, sub)
+            return
         items = []
         for a in iter_alts:
             if isinstance(a.value, ListVal) and a.value.items and not a.value.from_comprehension:
@@ -696,10 +707,7 @@ class Interpreter:
             elif items and all(isinstance(i, sympy.Number) for i in items):
                 env.vars[target.value] = [Alt(self.fresh_index(target.value, _common_sign(items)), (), line)]
             else:
-                env.vars[target.value] = [Alt(self.fresh_index(target.value), (), line)]
-        elif isinstance(target, (cst.Tuple, cst.List)):
-            for el in target.elements:
-                self.bind_loop_target(el.value, [], env, line)
+                env.vars[target.value] = [Alt(self.fresh_index(target.value, dict(integer)), (), line)]
         else:
             self.bind(target, [Alt(Opaque(self.code(target)))], env, line)
 
@@ -1066,7 +1074,7 @@ class Interpreter:
         while comp is not None:
             iter_alts = self.evaluate(comp.iter, local)
             counts.append(None if comp.ifs else self.trip_count(comp.iter, iter_alts, local))
-            self.bind_loop_target(comp.target, iter_alts, local, self.line(comp))
+            self.bind_loop_target(comp.target, iter_alts, local, self.line(comp), comp.iter)
             for cond in comp.ifs:
                 self.condition_depth += 1
                 try:
@@ -1087,7 +1095,7 @@ class Interpreter:
         local = Env(parent=env)
         comp = node.for_in
         while comp is not None:
-            self.bind_loop_target(comp.target, self.evaluate(comp.iter, local), local, self.line(comp))
+            self.bind_loop_target(comp.target, self.evaluate(comp.iter, local), local, self.line(comp), comp.iter)
             comp = comp.inner_for_in
         self.loop_depth += 1
         try:

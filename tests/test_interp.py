@@ -223,3 +223,20 @@ def test_attributes_another_method_reassigns_keep_only_the_sign_it_guarantees(tm
     path = tmp_path / "planner.py"
     path.write_text(CLASS_MODEL.format(setter=setter))
     assert [f.rule for f in check_file(str(path)).findings] == expected
+
+
+def test_loop_targets_are_integers_only_where_the_iterable_says_so():
+    """sympy simplifies sin(pi*k) to 0 for an integer k (a fact of the sine): a loop variable drawn
+    from floats must not be assumed integer, one from range (or enumerate's count) is."""
+    import libcst as cst
+
+    from optlint.interp import DialectHooks, Env, Interpreter
+
+    source = ("for k in range(3):\n    pass\nfor w in weights:\n    pass\n"
+              "for i, v in enumerate(values):\n    pass\n")
+    wrapper = cst.MetadataWrapper(cst.parse_module(source))
+    interp = Interpreter(wrapper, "loops.py", DialectHooks(), registry=None)
+    env = Env()
+    interp.exec_block(wrapper.module.body, env)
+    kinds = {name: env.vars[name][0].value.is_integer for name in ("k", "w", "i", "v")}
+    assert kinds == {"k": True, "w": None, "i": True, "v": None}
