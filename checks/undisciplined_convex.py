@@ -7,7 +7,9 @@ RATIONALE = """
 A disciplined-convex package accepts an expression only when its composition rules prove the
 curvature from the atoms as written. Some expressions are convex (or concave) but written with
 elementary functions the rules cannot combine: sqrt of a sum of squares, log of a sum of exps, a
-square divided by a variable, a product that expands to a convex quadratic. optlint proves the
+square divided by a variable, a product that expands to a convex quadratic, and x * x or 1 / x
+themselves (the package rejects any product of two variable expressions and any division by
+one, although x*x = x^2 and 1/x for x > 0 are convex). optlint proves the
 curvature another way (a normal form or the second-order condition) and gives the spelling the
 package accepts, so the model keeps its meaning and solves. Only reported for the DSL; other
 dialects have no discipline to satisfy, and a proved expression there is simply fine.
@@ -34,13 +36,22 @@ def _hint(analysis, j):
 
     from optlint.printer import show
 
-    found = rewrite.find(j.expr, analysis)
-    if found is not None:
-        written = analysis.text(found.node)
-        # "expression" is the subexpression over the model's own names, as "dsl" is: a reader can
-        # evaluate both at the same point and see that the rewrite keeps the value.
-        return (f"write `{written}` as `{found.dsl}`",
-                {"written": written, "expression": show(found.node, 400), "dsl": found.dsl, "atom": found.atom})
+    hints = []  # rewrite evidence dicts: written, expression, dsl, atom, line
+    if j.proof["method"] != "folded-form":
+        found = rewrite.find(j.expr, analysis)
+        if found is not None:
+            # "expression" is the subexpression over the model's own names, as "dsl" is: a reader can
+            # evaluate both at the same point and see that the rewrite keeps the value.
+            hints.append({"written": analysis.text(found.node), "expression": show(found.node, 400),
+                          "dsl": found.dsl, "atom": found.atom, "line": j.item.site.line})
+    # products and quotients written with * and / (the package rejects each), unless inside the above
+    hints += [r for r in j.proof.get("rewrites", ()) if not any(r["written"] in h["written"] for h in hints)]
+    if hints:
+        line = j.item.site.line
+        parts = [f"`{h['written']}`" + (f" (line {h['line']})" if h["line"] != line else "") + f" as `{h['dsl']}`"
+                 for h in hints[:3]]
+        more = f" ({len(hints) - 3} more in the evidence)" if len(hints) > 3 else ""
+        return "write " + ", ".join(parts[:-1]) + (" and " if len(parts) > 1 else "") + parts[-1] + more, hints[0]
     quadratic = rewrite.quadratic_hint(j.proof)
     if quadratic is not None:
         return f"write the quadratic as {quadratic}", None
@@ -54,7 +65,10 @@ def message(analysis, j, hint: str) -> str:
         what = f"objective is {j.want.value}"
     else:
         what = "constraint's feasible set is convex"
-    how = "a normal form" if j.proof["method"] == "normal-form" else "the second-order condition"
+    method = j.proof["method"]
+    if method == "folded-form":
+        return f"{what} (shown by the composition rules on the folded form) but {j.failure[1]}: {hint}"
+    how = "a normal form" if method == "normal-form" else "the second-order condition"
     return f"{what} (shown by {how}) but the composition rules reject it as written: {hint}"
 
 

@@ -16,7 +16,9 @@ When the rules fail (and no unknown function is involved) the escalation tries a
 (optlint.evidence.rewrite) and a second-order proof (optlint.evidence.second_order); a proof
 makes the judgement ``ok`` and is kept in ``Judgement.proof``; the rules' failure stays beside it,
 so that the disciplined-convex dialect can be told its package rejects what is in fact convex
-(``undisciplined``).
+(``undisciplined``). The same holds when the rules prove a part only in the form sympy folded it
+into: a product of two variable expressions or a division by one, as written in the DSL
+(``Model.written``), is rejected by the package although x·x = x² is convex.
 """
 
 from __future__ import annotations
@@ -124,7 +126,7 @@ class ModelAnalysis:
                                  else self._judge_constraint(item))
         return self._judged[key]
 
-    def _verdict(self, item, want, expr, branch, sides=None) -> Judgement:
+    def _verdict(self, item, want, expr, branch, sides=None, written=()) -> Judgement:
         result = self.analyse(expr)
         failure = None
         proof = None
@@ -132,7 +134,20 @@ class ModelAnalysis:
             failure = blame(result.tree, want) or (result.tree, "the composition rules give no verdict")
             if not result.unknown_functions:
                 proof = self.escalate(expr, want)
+            if proof is not None and proof["method"] == "normal-form" and written:
+                from optlint.evidence.rewrite import written_rewrites
+
+                proof = dict(proof, rewrites=written_rewrites(self, written))
+        elif written:
+            # Proved on the folded form, but the code multiplies two variable expressions (or
+            # divides by one), which the disciplined-convex package rejects as written.
+            from optlint.evidence.rewrite import rejected_as_written
+
+            failure, proof = rejected_as_written(self, result.tree, written)
         return Judgement(item, want, expr, branch, result, failure, sides, proof)
+
+    def _written(self, kind: str, item, index: int) -> list:
+        return self.model.written.get((kind, item.site.line, item.site.column, index), [])
 
     def escalate(self, expr, want: Curvature) -> dict[str, Any] | None:
         """A proof beyond the rules that ``expr`` has the wanted curvature, or None; memoised.
@@ -158,11 +173,12 @@ class ModelAnalysis:
 
     def _judge_objective(self, obj: Objective) -> list[Judgement]:
         want = Curvature.CONVEX if obj.sense == "minimise" else Curvature.CONCAVE
-        return [self._verdict(obj, want, v.expr, v.branch) for v in obj.variants if self.has_variables(v.expr)]
+        return [self._verdict(obj, want, v.expr, v.branch, written=self._written("objective", obj, k))
+                for k, v in enumerate(obj.variants) if self.has_variables(v.expr)]
 
     def _judge_constraint(self, con: Constraint) -> list[Judgement]:
         out = []
-        for left, right, branch in con.variants:
+        for k, (left, right, branch) in enumerate(con.variants):
             if con.relation in ("<=", "<"):
                 expr, want = left - right, Curvature.CONVEX
             elif con.relation in (">=", ">"):
@@ -170,7 +186,8 @@ class ModelAnalysis:
             else:  # "==", "psd", "cone"
                 expr, want = left - right, Curvature.AFFINE
             if self.has_variables(expr):
-                out.append(self._verdict(con, want, expr, branch, (left, right)))
+                out.append(self._verdict(con, want, expr, branch, (left, right),
+                                         written=self._written("constraint", con, k)))
         return out
 
     # -- words for messages ------------------------------------------------------------------

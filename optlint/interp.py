@@ -290,6 +290,11 @@ class DialectHooks:
         """Value bound to a decorated function's name; ``NotImplemented`` keeps the plain function."""
         return NotImplemented
 
+    def arithmetic(self, interp: "Interpreter", op: str, left: Any, right: Any, node: cst.CSTNode) -> Any:
+        """Value of ``left * right`` or ``left / right`` of two lifted operands (a library that rejects
+        some products as written can mark them); ``NotImplemented`` for plain arithmetic."""
+        return NotImplemented
+
 
 # ---------------------------------------------------------------------------------------------
 # The interpreter

@@ -30,7 +30,7 @@ class ModelFunction(sympy.Function):
         return None
 
 
-def _atom(name: str, nargs: int | tuple[int, ...], dsl_name: str | None = None) -> type:
+def _atom(name: str, nargs: int | tuple[int, ...] | None, dsl_name: str | None = None) -> type:
     cls = type(name, (ModelFunction,), {"nargs": nargs, "dsl_name": dsl_name or name})
     return cls
 
@@ -41,7 +41,7 @@ index = _atom("index", 2, "[]")                      # index(x, k): one entry (o
 reshape = _atom("reshape", 1, "reshape")             # reshape / vec / flatten
 transpose = _atom("transpose", 1, "T")               # transpose
 trace = _atom("trace", 1, "trace")                   # trace of a square matrix
-stack = _atom("stack", tuple(range(1, 65)), "hstack")  # hstack / vstack / bmat of the arguments
+stack = _atom("stack", None, "hstack")               # hstack / vstack / bmat of any number of arguments
 matmul = _atom("matmul", 2, "@")                     # matrix product A @ B
 diff = _atom("diff", 1, "diff")                      # first differences x[1:] - x[:-1]
 cumsum = _atom("cumsum", 1, "cumsum")                # cumulative sum

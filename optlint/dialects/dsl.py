@@ -9,6 +9,11 @@ Each library function maps to an atom of ``optlint.calculus.functions`` (or symp
 functions of the library that optlint has no curvature facts for become unknown functions, which
 the ``unknown-curvature`` rule names. Problems solved in the geometric-programming or quasiconvex
 modes are reported as skipped: they follow other curvature rules.
+
+The package rejects a product of two non-constant expressions (``x * x``, ``cp.multiply(x, x)``)
+and a division by one (``1 / x``) even where sympy folds them into an atom it accepts (x**2,
+x**-1); ``arithmetic`` and ``finish`` follow each such operation to the model parts it reaches
+(``Model.written``, see ``DSLHooks.written``).
 """
 
 from __future__ import annotations
@@ -19,11 +24,13 @@ import sympy
 from optlint.calculus import functions as F
 from optlint.dialects.registry import Registry, run_dialect
 from optlint.interp import ConsVal, DialectHooks, Interpreter, ListVal, ObjVal, Opaque, ProbVal
-from optlint.ir import Declaration, Model, Notice
-from optlint.lift import data
+from optlint.ir import Declaration, Model, Notice, Variant, WrittenOp
+from optlint.lift import data, safe_pow
 
 NAME = "dsl"
 LIBRARY = "cvxpy"
+
+MAX_ALIASES = 512  # per file; beyond it operations are folded as sympy likes (no undisciplined finding)
 
 _SIGN_KWARGS = {"nonneg": "nonnegative", "pos": "positive", "nonpos": "nonpositive", "neg": "negative"}
 _ATTR_KWARGS = ("boolean", "integer", "symmetric", "PSD", "NSD", "diag", "hermitian", "complex")
@@ -50,6 +57,7 @@ class DSLHooks(DialectHooks):
     def __init__(self, registry: Registry):
         self.registry = registry
         self.literal_names: dict[str, object] = {}
+        self.aliases: dict[sympy.Symbol, tuple[sympy.Symbol, WrittenOp]] = {}  # alias -> (variable, op)
 
     # -- names ----------------------------------------------------------------------------
 
@@ -80,6 +88,12 @@ class DSLHooks(DialectHooks):
         if builder is None:
             return interp.unknown_call(f"{LIBRARY}.{name}", args, kwargs, node)
         exprs = [interp.to_expr(a, None) for a in args]
+        if name == "multiply" and len(exprs) == 2 and len(node.args) == 2 and all(
+                e is not None and interp.involves(e) for e in exprs):
+            marked = self.written(interp, "product", exprs[0], exprs[1], node,
+                                  interp.code(node.args[0].value), interp.code(node.args[1].value))
+            if marked is not NotImplemented:
+                return marked
         if exprs and exprs[0] is None and name not in ("hstack", "vstack", "bmat"):
             return interp.unknown_call(f"{LIBRARY}.{name}", args, kwargs, node)
         kw = {k: (interp.to_expr(v, None) if not isinstance(v, str) else v) for k, v in kwargs.items()}
@@ -89,9 +103,53 @@ class DSLHooks(DialectHooks):
             result = None
         if result is None:
             return interp.unknown_call(f"{LIBRARY}.{name}", args, kwargs, node)
-        if isinstance(result, sympy.Basic) and result not in self.registry.model.origins:
-            self.registry.model.origins[result] = (interp.line(node), interp.code(node))
+        origins = self.registry.model.origins
+        if isinstance(result, sympy.Basic) and result not in origins:
+            origins[result] = (interp.line(node), interp.code(node))
+        # The arguments' own text too, so a suggested rewrite can quote `A @ coef - b`, not its lifted form.
+        for arg, e in zip(node.args, exprs):
+            if arg.keyword is None and isinstance(e, sympy.Basic) and e not in origins and interp.involves(e):
+                origins[e] = (interp.line(node), interp.code(arg.value))
         return result
+
+    # -- products and divisions the package rejects as written ------------------------------------
+
+    def arithmetic(self, interp: Interpreter, op: str, left, right, node):
+        if not (interp.involves(right) and (op == "Divide" or interp.involves(left))):
+            return NotImplemented
+        return self.written(interp, "product" if op == "Multiply" else "division", left, right, node,
+                            interp.code(node.left), interp.code(node.right))
+
+    def written(self, interp: Interpreter, kind: str, left, right, node, left_code: str, right_code: str):
+        """``left * right`` (or ``left / right``) with the right operand's variables replaced by aliases.
+
+        An alias is a fresh symbol with its variable's assumptions, swapped back in ``finish``:
+        until then sympy cannot fold x*x into x**2, and the operation travels with the value, so
+        the model parts it reaches are known exactly (flow, not a textual match).
+        """
+        mapping = {}
+        for v in sorted(right.free_symbols & interp.variables, key=str):
+            if v not in self.aliases and len(self.aliases) < MAX_ALIASES:
+                mapping[v] = sympy.Dummy(v.name, **v.assumptions0)
+        if not mapping:
+            return NotImplemented
+        value = left * right if kind == "product" else left * safe_pow(right, sympy.Integer(-1))
+        op = WrittenOp(kind, interp.site(node), interp.code(node), left, right, left_code, right_code, value)
+        for v, alias in mapping.items():
+            self.aliases[alias] = (v, op)
+            interp.variables.add(alias)
+            self.registry.alias(alias, v, f"{op.site.line}:{op.site.column}")
+        aliased = right.xreplace(mapping)
+        result = left * aliased if kind == "product" else left * safe_pow(aliased, sympy.Integer(-1))
+        # The folded value reads as the modeller wrote it (`x * x`, not `x**2`), first come first served.
+        self.registry.model.origins.setdefault(result, (op.site.line, op.code))
+        return result
+
+    def finish(self) -> Model:
+        model = self.registry.finish()
+        if self.aliases:
+            _restore_aliases(model, self.aliases)
+        return model
 
     def declare(self, interp: Interpreter, kind: str, args, kwargs, node):
         hint = interp.current_hint or kwargs.get("name") or kind.lower()
@@ -271,6 +329,49 @@ class DSLHooks(DialectHooks):
         ))
 
 
+def _restore_aliases(model: Model, aliases: dict) -> None:
+    """Put each variable back in place of its aliases, and record in ``model.written`` which
+    written operations reached which variant of which objective or constraint."""
+    back = {alias: v for alias, (v, _) in aliases.items()}
+
+    def undo(e):
+        return e.xreplace(back) if isinstance(e, sympy.Basic) else e
+
+    def reached(*exprs) -> list[WrittenOp]:
+        ops = {id(aliases[s][1]): aliases[s][1] for e in exprs if isinstance(e, sympy.Basic)
+               for s in e.free_symbols if s in aliases}
+        return sorted(ops.values(), key=lambda op: (op.site.line, op.site.column))
+
+    for op in {id(op): op for _, op in aliases.values()}.values():
+        op.left, op.right, op.value = undo(op.left), undo(op.right), undo(op.value)
+
+    def same(a, b) -> bool:
+        return (len(a[0]) == len(b[0]) and all(x == y for x, y in zip(a[0], b[0]))
+                and a[1] == b[1] and [o.site for o in a[2]] == [o.site for o in b[2]])
+
+    def rebuild(kind, item, parts) -> list:
+        kept = []
+        for exprs, branch in parts:
+            entry = ([undo(e) for e in exprs], branch, reached(*exprs))
+            if not any(same(entry, k) for k in kept):  # equal once the variables are back
+                kept.append(entry)
+        for k, (_, _, ops) in enumerate(kept):
+            if ops:
+                model.written[(kind, item.site.line, item.site.column, k)] = ops
+        return kept
+
+    for obj in model.objectives:
+        kept = rebuild("objective", obj, [((v.expr,), v.branch) for v in obj.variants])
+        obj.variants = [Variant(exprs[0], branch) for exprs, branch, _ in kept]
+    for con in model.constraints:
+        kept = rebuild("constraint", con, [((l, r), branch) for l, r, branch in con.variants])
+        con.variants = [(exprs[0], exprs[1], branch) for exprs, branch, _ in kept]
+    origins: dict = {}
+    for key, where in model.origins.items():
+        origins.setdefault(undo(key), where)
+    model.origins = origins
+
+
 def _literal_numbers(node):
     """Nested lists/tuples of numeric literals (with unary minus) as Python values, else None."""
     if isinstance(node, (cst.List, cst.Tuple)):
@@ -421,4 +522,4 @@ _NUMPY_LITERALS = ("numpy.array", "numpy.asarray", "numpy.diag", "numpy.eye")
 def recognise(wrapper: cst.MetadataWrapper, path: str) -> list[Model]:
     registry = Registry(path, NAME)
     hooks = DSLHooks(registry)
-    return run_dialect(wrapper, path, hooks, registry)
+    return run_dialect(wrapper, path, hooks, registry, finish=hooks.finish)

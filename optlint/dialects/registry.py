@@ -30,6 +30,11 @@ class Registry:
         self.model.declarations[decl.symbol] = decl
         self._canonical[decl.symbol] = sympy.Symbol(f"{decl.name}@{where[0]}:{where[1]}")
 
+    def alias(self, symbol, variable, tag: str) -> None:
+        """``symbol`` stands for ``variable`` at the place ``tag`` (a DSL written operation): variants
+        that differ only in such aliases of one place are one variant."""
+        self._canonical[symbol] = sympy.Symbol(f"{self._canonical.get(variable, variable)}~{tag}")
+
     def _same_up_to_renaming(self, a, b) -> bool:
         """Variants equal once each declared symbol is replaced by one symbol for its site."""
         if a == b:

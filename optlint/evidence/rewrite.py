@@ -8,10 +8,13 @@ equivalent expression in optlint's atoms (``replacement``) and the DSL spelling 
 - log(exp(a_1) + ... + exp(a_k)) = log_sum_exp(hstack(a_1, ..., a_k)); log(sum(exp(v))) = log_sum_exp(v);
 - a²/y = quad_over_lin(a, y) (y > 0 is its domain), 1/y = inv_pos(y), a·a = square(a);
 - a quadratic with constant Hessian over one vector: quad_form(v, P) plus its affine part.
-``proves(expr, analysis)`` replaces the first two forms by their atoms and is a proof when the rules
-prove the result (norms and log-sum-exp of affine maps, B&V 2004 §3.1.5 and §3.2.2, from memory);
+``proves(expr, analysis)`` replaces the first two forms, and a²/y where y > 0 on the whole domain, by
+their atoms and is a proof when the rules prove the result (norms, log-sum-exp and
+quadratic-over-linear of affine maps, B&V 2004 §3.1.5 and §3.2.2, from memory);
 the identities hold entry by entry, so the proof does not depend on shapes.
 The hints for the other forms are advice only: the proof comes from optlint.evidence.second_order.
+``written_rewrite`` spells a product or quotient the DSL code wrote (x * x, 1 / x, 3 * x * x) that
+sympy folded into a power the rules accept: square, inv_pos or power.
 """
 
 from __future__ import annotations
@@ -58,29 +61,51 @@ def _squares(analysis, base):
     k, inner = _split(analysis, base)
     if not _nonneg(analysis, k) or inner is sympy.S.One:
         return None
-    pieces, texts = [], []
+    found = []  # (c, a) for c·a², a affine; (c, None) for a constant c >= 0
     # Variable terms first, constants last: the order a modeller writes a stacked vector in.
     for term in sorted(sympy.Add.make_args(inner), key=lambda e: not analysis.has_variables(e)):
         c, sq = _split(analysis, term)
-        if sq is sympy.S.One:
-            if not _nonneg(analysis, c):
-                return None
-            pieces.append(sympy.sqrt(c))
-            texts.append(show(sympy.sqrt(c)))
-            continue
         if not _nonneg(analysis, c):
             return None
+        if sq is sympy.S.One:
+            found.append((c, None))
+            continue
         if isinstance(sq, sympy.Pow) and sq.exp == 2 and _affine(analysis, sq.base):
             a = sq.base
         elif isinstance(sq, F.sum_squares) and _affine(analysis, sq.args[0]):
             a = sq.args[0]
         else:
-            return None
+            pair = _square_pair(analysis, sq)  # (2a)·a, as sympy leaves 2·(a)·(a) once 2 is distributed
+            if pair is None:
+                return None
+            ratio, a = pair
+            c = c * ratio
+        found.append((c, a))
+    if len(found) == 1 and found[0][1] is not None:  # one square: its weight joins k
+        k, found = k * found[0][0], [(sympy.S.One, found[0][1])]
+    pieces, texts = [], []
+    for c, a in found:
+        if a is None:
+            pieces.append(sympy.sqrt(c))
+            texts.append(show(sympy.sqrt(c)))
+            continue
         scaled = a if c == 1 else sympy.sqrt(c) * a
         pieces.append(scaled)
-        texts.append(analysis.text(sq.base if isinstance(sq, sympy.Pow) else sq.args[0])
-                     if c == 1 else show(scaled))
+        texts.append(analysis.text(a) if c == 1 else show(scaled))
     return k, pieces, texts
+
+
+def _square_pair(analysis, product):
+    """(r, a) when ``product`` is (r·a)·a with a affine and r > 0 a number, else None."""
+    if not isinstance(product, sympy.Mul):
+        return None
+    factors = [f for f in product.args if analysis.has_variables(f)]
+    if len(factors) != 2 or len(product.args) != 2 or not _affine(analysis, factors[1]):
+        return None
+    ratio = sympy.cancel(factors[0] / factors[1])
+    if not (ratio.is_Number and ratio > 0):
+        return None
+    return (ratio, factors[1]) if ratio >= 1 else (1 / ratio, factors[0])  # the weight outside, >= 1
 
 
 def _norm(analysis, node) -> Rewrite | None:
@@ -137,8 +162,9 @@ def _division(analysis, node) -> Rewrite | None:
     if num is sympy.S.One:
         return Rewrite(node, k * F.inv_pos(y), f"{scale}cp.inv_pos({analysis.text(y)})", "inv_pos")
     found = _squares(analysis, num)
-    if found is None or found[0] != 1:
+    if found is None:
         return None
+    k, scale = k * found[0], "" if k * found[0] == 1 else f"{show(k * found[0])} * "
     pieces, texts = found[1], found[2]
     if len(pieces) == 1:
         a, text = pieces[0], texts[0]
@@ -146,6 +172,16 @@ def _division(analysis, node) -> Rewrite | None:
         a, text = F.stack(*pieces), f"cp.hstack([{', '.join(texts)}])"
     return Rewrite(node, k * F.quad_over_lin(a, y), f"{scale}cp.quad_over_lin({text}, {analysis.text(y)})",
                    "quad_over_lin")
+
+
+def _positive_quad_over_lin(analysis, node) -> Rewrite | None:
+    """k·(a_1² + ...)/y with y > 0 on the whole domain: there it equals k·quad_over_lin, entry by entry
+    (B&V 2004 §3.1.5, quadratic-over-linear, from memory); without y > 0 it is no identity."""
+    form = _division(analysis, node)
+    if form is None or form.atom != "quad_over_lin":
+        return None
+    (atom,) = form.replacement.atoms(F.quad_over_lin)
+    return form if analysis.analyse(atom.args[1]).sign is Sign.POSITIVE else None
 
 
 def _inverse(analysis, node) -> Rewrite | None:
@@ -184,6 +220,81 @@ def find(expr, analysis) -> Rewrite | None:
     return None
 
 
+def written_rewrite(analysis, op) -> Rewrite | None:
+    """The DSL spelling of a written product or quotient (``ir.WrittenOp``) whose folded value is
+    k·b^p with b affine: k·square(b) for p = 2, k·inv_pos(b) for p = -1 (b > 0, its domain),
+    k·power(b, p) otherwise (the rules proved the folded value, so b's sign is what p needs and
+    the identity holds on the domain); or a quotient k·a²/y with y > 0: k·quad_over_lin(a, y)."""
+    k, core = _split(analysis, op.value)
+    if op.kind == "division" and not isinstance(core, sympy.Pow):
+        return _positive_quad_over_lin(analysis, op.value)  # (a - b)**2 / y
+    if not (isinstance(core, sympy.Pow) and core.exp.is_Number and _affine(analysis, core.base)):
+        return None
+    base, p = core.base, core.exp
+    text = _bare(op.left_code if base == op.left else op.right_code if base == op.right else show(base))
+    if p == 2:
+        dsl, atom, replacement = f"cp.square({text})", "square", F.power(base, 2)
+    elif p == -1 and analysis.analyse(base).sign is Sign.POSITIVE:
+        dsl, atom, replacement = f"cp.inv_pos({text})", "inv_pos", F.inv_pos(base)
+    elif p == -1:
+        return None  # 1/b with b < 0 is -inv_pos(-b); rare enough to leave to the general hint
+    else:
+        dsl, atom, replacement = f"cp.power({text}, {show(p)})", "power", F.power(base, p)
+    scale = "" if k == 1 else "-" if k == -1 else f"{show(k)} * "
+    return Rewrite(op.value, k * replacement, scale + dsl, atom)
+
+
+def _bare(text: str) -> str:
+    """``(x - 1)`` -> ``x - 1`` when the outer parentheses enclose the whole text (an argument needs none)."""
+    if not (text.startswith("(") and text.endswith(")")):
+        return text
+    depth = 0
+    for k, ch in enumerate(text):
+        depth += ch == "("
+        depth -= ch == ")"
+        if depth == 0 and k < len(text) - 1:
+            return text
+    return text[1:-1].strip()
+
+
+def rejected_as_written(analysis, tree, ops) -> tuple[tuple[Any, str], dict[str, Any]]:
+    """(failure, proof) for a part the rules prove only as sympy folded it: the failing step is the
+    first written operation's node in the derivation, the proof is the rules' own derivation."""
+    op = ops[0]
+    node = next((n for n in _preorder(tree) if n.expr == op.value), tree)
+    what = ("a product of two non-constant expressions" if op.kind == "product"
+            else "a division by a non-constant expression")
+    reason = f"the package rejects {what} as written (`{op.code}`)"
+    proof: dict[str, Any] = {
+        "method": "folded-form",
+        "reference": "composition rules (Grant, Boyd & Ye 2006) on the folded form; x·x = x² and 1/x = x^-1 are identities",
+        "written": [o.code for o in ops],
+    }
+    rewrites = written_rewrites(analysis, ops)
+    if rewrites:
+        proof["rewrites"] = rewrites
+    return (node, reason), proof
+
+
+def written_rewrites(analysis, ops) -> list[dict[str, Any]]:
+    """The rewrite evidence of each written operation that has a spelling (``written_rewrite``)."""
+    out = []
+    for op in ops:
+        found = written_rewrite(analysis, op)
+        if found is not None:
+            out.append({"written": op.code, "expression": op.code, "dsl": found.dsl, "atom": found.atom,
+                        "line": op.site.line})
+    return out
+
+
+def _preorder(tree):
+    stack = [tree]
+    while stack:
+        node = stack.pop()
+        yield node
+        stack.extend(reversed(node.children))
+
+
 def quadratic_hint(proof: dict[str, Any]) -> str | None:
     """For a second-order proof with a constant Hessian: the quadratic form's matrix, in the DSL."""
     form = proof.get("quadratic_form")
@@ -200,7 +311,7 @@ def quadratic_hint(proof: dict[str, Any]) -> str | None:
 def proves(expr, analysis, want: Curvature) -> dict[str, Any] | None:
     """A normal-form proof that ``expr`` has the wanted curvature, or None.
 
-    Every norm or log-sum-exp form (outermost first) is replaced by its atom, and the rules must
+    Every norm, log-sum-exp or positive quadratic-over-linear form (outermost first) is replaced by its atom, and the rules must
     prove the result. The replacement has, entry by entry, the curvature and sign the rules derive
     for it, and the rules use only those facts of a child (they are sound for any shapes), so
     their derivation holds for the expression as written.
@@ -212,7 +323,7 @@ def proves(expr, analysis, want: Curvature) -> dict[str, Any] | None:
     for node in sympy.preorder_traversal(expr):
         if node in skip or not isinstance(node, sympy.Basic) or not analysis.has_variables(node):
             continue
-        form = _norm(analysis, node) or _lse(analysis, node)
+        form = _norm(analysis, node) or _lse(analysis, node) or _positive_quad_over_lin(analysis, node)
         if form is not None:
             found.append(form)
             skip.update(sympy.preorder_traversal(node))
@@ -225,7 +336,8 @@ def proves(expr, analysis, want: Curvature) -> dict[str, Any] | None:
         return None
     return {
         "method": "normal-form",
-        "reference": "B&V 2004 §3.1.5 (norms, log-sum-exp) and §3.2.2 (affine composition), from memory",
+        "reference": ("B&V 2004 §3.1.5 (norms, log-sum-exp, quadratic-over-linear) and §3.2.2 (affine "
+                      "composition), from memory"),
         "identities": [f"{show(f.node)} = {show(f.replacement)}" for f in found],
         "dsl": [f.dsl for f in found],
         "rewritten": show(rewritten, 400),

@@ -7,10 +7,18 @@ arrays of sympy scalars, one entry per component of each decision variable.
 
 Invariants:
 - The result is an *instance* of the model expression, never a different function: unknown
-  dimensions are fixed at a stated size, a symbolic index at a stated element, data of unknown value
-  are placeholder symbols (``data``) the caller must give values and report, and data of unknown
-  shape used in a matrix product are vectors of identical entries (a restriction of the data, stated
-  in ``notes``). Non-convexity of an instance shows non-convexity of the expression for that data.
+  dimensions are fixed at a stated size (2, 3, or the length of a literal array the expression
+  uses), a symbolic index at a stated element, data of unknown value are placeholder symbols
+  (``data``; an entry of such data is one too) the caller must give values and report (whole
+  numbers for integer data such as a ``len``: ``integers``), and data of unknown shape used in a
+  matrix product are vectors of identical entries (a restriction of the data, stated in
+  ``notes``). Non-convexity of an instance shows non-convexity of the expression for that data.
+- A variable too large to scalarise whole, used only through constant (or first-element)
+  indices, varies only in the entries used; the others are fixed at a point of its domain and a
+  note says so. That restricts the function to an affine set: enough for a witness, never for a
+  proof (the note bars second-order proofs).
+- ``entries=True`` accepts a vector value (an elementwise constraint): its first entries are in
+  ``entries``.
 - Atoms with a restricted domain are +oo outside it (Piecewise), the extended-value convention of
   B&V 2004 §3.1.2 (from memory), so an evaluator never mistakes a point outside the domain for one
   inside.
@@ -29,10 +37,13 @@ from sympy.core.function import AppliedUndef
 
 from optlint.calculus import functions as F
 from optlint.lift import DataSymbol
+from optlint.printer import show
 
 MAX_SCALARS = 64
 MAX_LITERAL = 4096
 MAX_OPS = 6000
+MAX_ENTRIES = 100_000  # a larger variable is not even scanned for the entries it uses
+MAX_ENTRIES_TESTED = 8  # entries of a vector-valued constraint the witness search tries
 DEFAULT_DIMS = (2, 3)
 
 _ELEMENTWISE = (sympy.exp, sympy.log, sympy.Abs, sympy.sin, sympy.cos, sympy.tan, sympy.tanh,
@@ -51,6 +62,8 @@ class Scalarised:
     signs: list[int]                        # +1 nonnegative, -1 nonpositive, 0 free; per symbol
     strict: list[bool]                      # strictly signed (positive/negative)
     data: dict[sympy.Symbol, tuple[str, int]] = field(default_factory=dict)  # placeholder -> (name, sign)
+    integers: set[sympy.Symbol] = field(default_factory=set)  # placeholders for integer data (a length)
+    entries: list[sympy.Expr] = field(default_factory=list)  # each entry of a vector value (``expr`` is the first)
     sizes: dict[str, list[int]] = field(default_factory=dict)
     notes: list[str] = field(default_factory=list)
 
@@ -78,8 +91,9 @@ def _dim(value, default: int) -> int | None:
 
 
 class _Builder:
-    def __init__(self, model, facts, default_dim: int, needs: dict):
+    def __init__(self, model, facts, default_dim: int, needs: dict, root=None):
         self.needs = needs
+        self.root = root
         self.model = model
         self.facts = facts
         self.default_dim = default_dim
@@ -107,11 +121,23 @@ class _Builder:
         if any(d is None for d in dims) or len(dims) > 2:
             raise Unsupported("variable shape")
         size = int(numpy.prod(dims)) if dims else 1
-        if len(self.out.symbols) + size > MAX_SCALARS:
-            raise Unsupported("too many scalar variables")
         sign, strict = _sign_of(sym)
+        used = None  # every entry
+        if len(self.out.symbols) + size > MAX_SCALARS:
+            used = self.used_entries(sym, dims) if size <= MAX_ENTRIES else None
+            if used is None or len(self.out.symbols) + len(used) > MAX_SCALARS:
+                raise Unsupported("too many scalar variables")
+            # Only the entries the expression indexes vary; the others are fixed at a point of the
+            # domain. That restricts f to an affine set, and a restriction of a convex (affine)
+            # function is convex (affine), so a witness for it is one for f (B&V 2004 §3.1.1,
+            # from memory). A restriction proves nothing, so the note also bars second-order proofs.
+            fixed = sympy.Integer(sign if strict else 0)
+            self.out.notes.append(f"entries of `{name}` the expression does not index are fixed at {fixed}")
         cells = numpy.empty(size, dtype=object)
         for k, idx in enumerate(itertools.product(*[range(d) for d in dims]) if dims else [()]):
+            if used is not None and k not in used:
+                cells[k] = fixed
+                continue
             s = sympy.Symbol(f"x_{len(self.out.symbols)}", real=True)
             self.out.symbols.append(s)
             self.out.labels.append(name + ("[" + ", ".join(map(str, idx)) + "]" if idx else ""))
@@ -123,6 +149,31 @@ class _Builder:
         self.vars[sym] = arr
         return arr
 
+    def used_entries(self, sym, dims) -> set[int] | None:
+        """Flat positions of ``sym`` the expression picks by indexing; None if it uses it whole."""
+        positions = numpy.arange(int(numpy.prod(dims))).reshape(dims) if dims else None
+        if positions is None:
+            return None
+        used: set[int] = set()
+        stack = [(self.root, False)]
+        while stack:
+            node, as_base = stack.pop()
+            if node == sym:
+                if not as_base:
+                    return None
+                continue
+            if isinstance(node, F.index) and node.args[0] == sym:
+                spec = node.args[1]
+                parts = spec.args if isinstance(spec, AppliedUndef) and _undef(spec) == "ix" else (spec,)
+                key = tuple(self.index_part(p) for p in parts)
+                try:
+                    used.update(int(k) for k in numpy.ravel(positions[key if len(key) > 1 else key[0]]))
+                except (IndexError, TypeError) as exc:
+                    raise Unsupported("index") from exc
+                continue
+            stack.extend((a, False) for a in node.args)
+        return used
+
     def data(self, sym) -> numpy.ndarray:
         literal = self.facts.matrices.get(sym)
         if literal is not None:
@@ -130,11 +181,19 @@ class _Builder:
             if values.size > MAX_LITERAL or values.ndim > 2:
                 raise Unsupported("literal too large")
             return _obj(values)
-        if sym not in self.placeholders:
+        return self.placeholder(sym, str(sym), _sign_of(sym)[0] if not sym.is_zero else 0, bool(sym.is_integer))
+
+    def placeholder(self, key, name: str, sign: int, integer: bool) -> numpy.ndarray:
+        if key not in self.placeholders:
             d = sympy.Symbol(f"d_{len(self.placeholders)}", real=True)
-            self.placeholders[sym] = d
-            self.out.data[d] = (str(sym), _sign_of(sym)[0] if not sym.is_zero else 0)
-        return numpy.array(self.placeholders[sym], dtype=object)
+            self.placeholders[key] = d
+            taken = {n for n, _ in self.out.data.values()}
+            while name in taken:  # two data printed alike (x[k] in two iterations) stay two names
+                name += "'"
+            self.out.data[d] = (name, sign)
+            if integer:
+                self.out.integers.add(d)
+        return numpy.array(self.placeholders[key], dtype=object)
 
     # -- the walk -----------------------------------------------------------------------------
     def build(self, node) -> numpy.ndarray:
@@ -173,6 +232,12 @@ class _Builder:
 
     def index(self, node) -> numpy.ndarray:
         base = self.build(node.args[0])
+        if base.ndim == 0 and not (node.free_symbols & self.facts.variables):
+            # An entry of data whose value and shape are unknown (a placeholder) is itself data of
+            # unknown value, with the sign the whole array is known to have.
+            whole = node.args[0]
+            sign = _sign_of(whole)[0] if isinstance(whole, sympy.Symbol) else 0
+            return self.placeholder(node, show(node, 200), sign, False)
         spec = node.args[1]
         parts = spec.args if isinstance(spec, AppliedUndef) and _undef(spec) == "ix" else (spec,)
         key = tuple(self.index_part(p) for p in parts)
@@ -403,14 +468,14 @@ def _map_n(fn, *args) -> numpy.ndarray:
 
 
 def _index_needs(expr, variables) -> dict:
-    """Least size per axis of each variable, from its constant integer indices (x[0], X[1, 2])."""
+    """Least size per axis of each variable, from its constant indices and slices (x[0], X[1, 2], x[3:])."""
     needs: dict = {}
     for node in sympy.preorder_traversal(expr):
         if not isinstance(node, F.index) or node.args[0] not in variables:
             continue
         spec = node.args[1]
         parts = spec.args if isinstance(spec, AppliedUndef) and _undef(spec) == "ix" else (spec,)
-        sizes = [int(p) + 1 if p.is_Integer and p >= 0 else 1 for p in parts]
+        sizes = [_least_size(p) for p in parts]
         old = needs.get(node.args[0], ())
         if len(old) == len(sizes):
             sizes = [max(a, b) for a, b in zip(old, sizes)]
@@ -418,16 +483,33 @@ def _index_needs(expr, variables) -> dict:
     return needs
 
 
+def _least_size(part) -> int:
+    """The least length of an axis for ``part`` to pick something: x[2] needs 3, x[3:] needs 4."""
+    if isinstance(part, AppliedUndef) and _undef(part) == "slice":
+        start, stop = part.args[0], part.args[1] if len(part.args) > 1 else None
+        need = [int(start) + 1] if start.is_Integer and start >= 0 else []
+        need += [int(stop)] if stop is not None and stop.is_Integer and stop > 0 else []
+        return max(need or [1])
+    return int(part) + 1 if part.is_Integer and part >= 0 else 1
+
+
 def _ops(expr) -> int:
     return sum(1 for _ in sympy.preorder_traversal(expr))
 
 
-def scalarise(expr, model, facts) -> Scalarised:
-    """The scalar instance of ``expr``; tries the default sizes for unknown dimensions in turn."""
+def scalarise(expr, model, facts, entries: bool = False) -> Scalarised:
+    """The scalar instance of ``expr``; tries the default sizes for unknown dimensions in turn, then
+    the lengths of the literal data it uses (a variable of unknown size beside a 6-entry array).
+
+    ``entries``: a vector or matrix value is allowed (an elementwise constraint); its first
+    ``MAX_ENTRIES_TESTED`` entries are in ``Scalarised.entries`` and ``expr`` is the first of them.
+    """
     last: Exception = Unsupported("no size fits")
     needs = _index_needs(expr, facts.variables)
-    for dim in DEFAULT_DIMS:
-        builder = _Builder(model, facts, dim, needs)
+    literal = sorted({int(n) for s in expr.free_symbols if s in facts.matrices
+                      for n in numpy.shape(facts.matrices[s]) if 1 <= n <= MAX_SCALARS})
+    for dim in DEFAULT_DIMS + tuple(n for n in literal if n not in DEFAULT_DIMS):
+        builder = _Builder(model, facts, dim, needs, expr)
         try:
             value = builder.build(expr)
         except Unsupported as exc:
@@ -435,13 +517,19 @@ def scalarise(expr, model, facts) -> Scalarised:
             continue
         except (TypeError, ValueError, AttributeError, RecursionError, ZeroDivisionError) as exc:
             raise Unsupported(f"scalarisation failed ({type(exc).__name__})") from exc
-        if value.size != 1:
+        if value.size != 1 and not (entries and value.size):
             raise Unsupported("not a scalar expression")
         result = builder.out
-        top = value.ravel()[0]
-        result.expr = top if isinstance(top, sympy.Basic) else sympy.Float(float(top))
-        if _ops(result.expr) > MAX_OPS:
+        tops = [e if isinstance(e, sympy.Basic) else sympy.Float(float(e))
+                for e in value.ravel()[:MAX_ENTRIES_TESTED]]
+        result.entries = tops
+        result.expr = tops[0]
+        if sum(_ops(e) for e in tops) > MAX_OPS:
             raise Unsupported("expression too large")
         result.notes = list(dict.fromkeys(result.notes))
+        # data met on the way but folded away are not part of the instance
+        used = set().union(*(e.free_symbols for e in tops))
+        result.data = {d: v for d, v in result.data.items() if d in used}
+        result.integers &= set(result.data)
         return result
     raise last

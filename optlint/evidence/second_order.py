@@ -19,7 +19,9 @@ Invariants (soundness first; any doubt returns None):
   base of a negative or fractional power must be provably positive on D, so f is C^2 on an open
   set containing D; a PSD Hessian on D gives convexity on D's interior and, f being continuous on
   D, on D itself (the chord inequality passes to limits).
-- Sizes are capped (scalars, nodes, minors), so the cost per expression is bounded.
+- Sizes are capped (scalars, nodes, minors, the degree of a minor over a common denominator, and
+  the rationals in exponents, which sympy's polynomial algebra turns into degrees), so the cost
+  per expression is bounded.
 """
 
 from __future__ import annotations
@@ -36,6 +38,7 @@ MAX_SYMBOLIC = 3
 MAX_QUADRATIC = 16
 MAX_NODES = 160
 MAX_MINOR_NODES = 600
+MAX_MINOR_ENTRY_NODES = 240
 _EIG_RTOL = 1e-9
 REFERENCE = "B&V 2004 §3.1.4 (second-order conditions)"
 
@@ -86,13 +89,52 @@ def _constant_psd(h: sympy.Matrix) -> tuple[bool, float] | None:
     return (bool(exact), low) if exact is not None else None
 
 
+def _degree_bound(expr) -> int:
+    """An upper bound of the total degree of ``expr`` brought over a common denominator (numerator
+    and denominator together), each symbol and each non-polynomial part counted as one generator."""
+    memo: dict = {}
+    stack = [(expr, False)]
+    while stack:  # post-order, (numerator degree, denominator degree) per node
+        node, ready = stack.pop()
+        if node in memo:
+            continue
+        if isinstance(node, sympy.Number) or getattr(node, "is_NumberSymbol", False):
+            memo[node] = (0, 0)
+            continue
+        if isinstance(node, sympy.Symbol) or not isinstance(node, (sympy.Add, sympy.Mul, sympy.Pow)):
+            memo[node] = (1, 0)
+            continue
+        if not ready:
+            stack.append((node, True))
+            stack.extend((a, False) for a in node.args)
+            continue
+        kids = [memo[a] for a in node.args]
+        if isinstance(node, sympy.Mul):
+            memo[node] = (sum(k[0] for k in kids), sum(k[1] for k in kids))
+        elif isinstance(node, sympy.Add):
+            den = sum(k[1] for k in kids)
+            memo[node] = (max(k[0] for k in kids) + den, den)
+        else:
+            (num, den), e = kids[0], node.exp
+            if not e.is_Integer:
+                memo[node] = (1, 1)  # a generator of its own (b^(p/q), b^g(x)), on either side
+            else:
+                k = abs(int(e))
+                memo[node] = (k * num, k * den) if e >= 0 else (k * den, k * num)
+    num, den = memo[expr]
+    return num + den
+
+
 def _minors_nonnegative(h: sympy.Matrix) -> bool:
     n = h.shape[0]
     for k in range(1, n + 1):
         for rows in itertools.combinations(range(n), k):
-            m = h.extract(list(rows), list(rows)).det(method="berkowitz") if k > 1 else h[rows[0], rows[0]]
-            if _nodes(m) > MAX_MINOR_NODES:
-                return False
+            sub = h.extract(list(rows), list(rows))
+            if sum(_nodes(e) for e in sub) > MAX_MINOR_ENTRY_NODES:
+                return False  # a determinant of large entries, or cancelling one, can take a minute
+            m = sub.det(method="berkowitz") if k > 1 else sub[0, 0]
+            if _nodes(m) > MAX_MINOR_NODES or _degree_bound(m) > MAX_MINOR_DEGREE:
+                return False  # factoring a polynomial of degree 40 in 3 variables takes minutes
             m = sympy.factor(sympy.cancel(sympy.together(m)))
             if m.is_nonnegative is not True:
                 return False
@@ -155,6 +197,28 @@ def _instance_is_exact(expr, model, facts) -> bool:
 
 
 MAX_EXPONENT = 8
+MAX_EXPONENT_DENOMINATOR = 64
+MAX_MINOR_DEGREE = 24
+
+
+def _exponents_small(f) -> bool:
+    """Every rational in an exponent (of a power, or inside exp) has a small numerator and denominator.
+
+    sympy's polynomial algebra (together, cancel, factor) takes exp(c·x) with c = p/q as
+    (exp(x/q))^p and x^(p/q) as (x^(1/q))^p and builds a dense polynomial of degree p in that
+    generator. A Float such as 0.3 is read exactly as 5404319552844595/2^54, so a minor with
+    exp(0.3·x) would need ~10^16 coefficients: memory is exhausted long before an answer."""
+    for node in sympy.preorder_traversal(f):
+        if isinstance(node, sympy.Pow):
+            spot = node.exp
+        elif node.func is sympy.exp:
+            spot = node.args[0]
+        else:
+            continue
+        for r in spot.atoms(sympy.Rational):
+            if r.q > MAX_EXPONENT_DENOMINATOR or abs(r.p) > MAX_EXPONENT * MAX_EXPONENT_DENOMINATOR:
+                return False
+    return True
 
 
 def prove_convex(expr, model, facts) -> dict[str, Any] | None:
@@ -174,8 +238,12 @@ def prove_convex(expr, model, facts) -> dict[str, Any] | None:
     if any(isinstance(n, sympy.Pow) and n.exp.is_Number and abs(n.exp) > MAX_EXPONENT
            for n in sympy.preorder_traversal(f)):
         return None  # expanding or differentiating (g)**1000 costs memory, not insight
+    if not _exponents_small(f):
+        return None
     symbols = [mapping[s] for s in sc.symbols]
-    quadratic = f.is_polynomial(*symbols) and sympy.Poly(f, *symbols).total_degree() <= 2
+    # Poly expands: on a degree-16 polynomial in 3 variables that alone takes many seconds
+    quadratic = (_degree_bound(f) <= 4 and f.is_polynomial(*symbols)
+                 and sympy.Poly(f, *symbols).total_degree() <= 2)
     if not quadratic and (len(symbols) > MAX_SYMBOLIC or _nodes(f) > MAX_NODES):
         return None
     h = sympy.hessian(sympy.expand(f) if quadratic else f, symbols)

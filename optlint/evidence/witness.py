@@ -3,8 +3,13 @@
 Role: for a failing judgement, scalarise the expression it judges and look for points a, b of
 its domain and t in (0, 1) with f(t·a + (1−t)·b) > t·f(a) + (1−t)·f(b) (B&V 2004 §3.1.1, the
 definition of convexity, from memory). The search is seeded and deterministic: structured starts
-(origin, coordinate axes, the all-ones direction, signs respected) and random dyadic points, so
-every coordinate prints exactly and a reader can recompute the sentence by hand.
+(origin, coordinate axes, the all-ones direction, signs respected), random dyadic points, and
+coordinate lines through the points where an affine piece of the expression vanishes, at steps
+from 2^-10 to 2^7 (a cusp |r|^p shows only very near r = 0, a cap min(c, |r|) only far from the
+origin), so every coordinate prints exactly and a reader can recompute the sentence by hand.
+Data of unknown value are tried at a few values (whole numbers for integer data); values that make
+the instance undefined (a division by zero) are skipped, and the values used are reported. A
+vector-valued constraint is tested entry by entry (or, for its set, through its largest entry).
 
 The evidence dict (``evidence.witness``):
 - ``expression``: ``str()`` of the scalar sympy function tested, over ``variables`` (x_0, x_1, ...);
@@ -21,6 +26,8 @@ The evidence dict (``evidence.witness``):
 
 from __future__ import annotations
 
+import math
+
 import numpy
 import sympy
 
@@ -32,34 +39,70 @@ _RANDOM_POINTS = 600
 _DATA_TRIALS = 6
 
 
-def _dyadic(v: float) -> float:
-    return round(v * 8) / 8
+def _dyadic(v: float, step: float = 8.0) -> float:
+    return round(v * step) / step
+
+
+_FINE = 1024.0  # roots are placed on a grid of 2^-10, so a point beside a cusp is exact and short
+_LINE_STEPS = (0.0,) + tuple(sgn * 2.0 ** j for j in range(-10, 8) for sgn in (1.0, -1.0))
+_MAX_LINES = 16
+
+
+def _affine_root(node, index) -> tuple[int, float] | None:
+    """For an affine piece c·x + d (any number of variables): the coordinate with the largest
+    coefficient and where the piece vanishes along it, the others at 0."""
+    free = node.free_symbols
+    if not free or not free <= set(index) or not node.is_polynomial(*free):
+        return None
+    try:
+        poly = sympy.Poly(node, *sorted(free, key=str))
+    except sympy.PolynomialError:
+        return None
+    if poly.total_degree() != 1:
+        return None
+    terms = dict(poly.terms())
+    const = float(terms.get((0,) * len(poly.gens), 0))
+    coeffs = {}
+    for monom, c in terms.items():
+        if sum(monom) == 1:
+            coeffs[poly.gens[monom.index(1)]] = float(c)
+    x = max(coeffs, key=lambda s: abs(coeffs[s]))
+    return index[x], _dyadic(-const / coeffs[x], _FINE)
 
 
 def _roots(expr, symbols) -> list[tuple[int, float]]:
-    """Where an affine piece c*x_k + d of one variable vanishes: curvature changes hide there
-    (a bump exp(-(x - 60)^2) is non-convex only near x = 60)."""
-    out = []
+    """Where an affine piece of the expression vanishes: curvature changes hide there (a bump
+    exp(-(x - 60)^2) is non-convex only near x = 60, a cusp |r|^p or a cap min(c, |r|) near r = 0)."""
+    out: list[tuple[int, float]] = []
     index = {s: k for k, s in enumerate(symbols)}
     for node in sympy.preorder_traversal(expr):
-        if not isinstance(node, sympy.Add) or len(node.free_symbols) != 1:
+        if not isinstance(node, sympy.Add) or len(node.args) > 64:
             continue
-        (x,) = node.free_symbols
-        coeffs = node.as_coefficients_dict()
-        if x not in index or set(coeffs) - {x, sympy.S.One}:
-            continue
-        c, d = coeffs.get(x, 0), coeffs.get(sympy.S.One, 0)
-        if c and c.is_Number and d.is_Number:
-            out.append((index[x], _dyadic(float(-d / c))))
+        found = _affine_root(node, index)
+        if found is not None and found not in out:
+            out.append(found)
         if len(out) >= 64:
             break
     return out
 
 
-def _points(sc: Scalarised, rng, expr) -> numpy.ndarray:
+def _lines(sc: Scalarised, roots) -> list[numpy.ndarray]:
+    """Points on coordinate lines through the first roots, at steps 2^-10 .. 2^7 on either side:
+    a cusp shows at tiny steps, a cap or a saturation at large ones (B&V 2004 §3.1.1: f is convex
+    iff it is convex on every line, from memory)."""
+    n = len(sc.symbols)
+    out = []
+    for k, r in roots[:_MAX_LINES]:
+        line = numpy.zeros((len(_LINE_STEPS), n))
+        line[:, k] = r + numpy.array(_LINE_STEPS)
+        out.append(line)
+    return out
+
+
+def _points(sc: Scalarised, rng, roots) -> numpy.ndarray:
     n = len(sc.symbols)
     rows = [numpy.zeros(n)]
-    for k, r in _roots(expr, sc.symbols):
+    for k, r in roots:
         for base in (numpy.zeros(n), numpy.full(n, r)):
             p = base.copy()
             p[k] = r
@@ -99,15 +142,21 @@ def _values(expr, symbols, pts) -> numpy.ndarray:
 def search_points(expr, sc: Scalarised, kind: str, seed: int = SEED):
     """(a, b, t, f_a, f_b, f_t) with the largest relative violation, or None."""
     rng = numpy.random.default_rng(seed)
-    centres = _points(sc, rng, expr)
-    # Local pairs (p +- h*d) test curvature near each point; far pairs test it between points.
+    roots = _roots(expr, sc.symbols)
+    centres = _points(sc, rng, roots)
+    # Local pairs (p +- h*d) test curvature near each point; line pairs along a coordinate through
+    # a root, at many scales; far pairs test it between points.
     n = len(sc.symbols)
     dirs = numpy.vstack([numpy.eye(n), numpy.ones((1, n)), rng.integers(-1, 2, size=(4, n))])
     pick = rng.integers(0, len(dirs), size=len(centres))
     local = [(centres + h * dirs[pick], centres - h * dirs[pick]) for h in (0.25, 1.0)]
-    pts = numpy.vstack([centres] + [p for pair in local for p in pair])
     signs = numpy.array(sc.signs, dtype=float)
-    pts = numpy.where(signs * pts < 0, 0.0, pts)
+    lines = [numpy.where(signs * line < 0, 0.0, line) for line in _lines(sc, roots)]
+    for line in lines:
+        a, b = numpy.triu_indices(len(line), 1)
+        local.append((line[a], line[b]))
+    pts = numpy.vstack([centres] + [p for pair in local for p in pair])
+    pts = numpy.where(signs * pts < 0, 0.0, pts) + 0.0  # + 0.0: -0.0 becomes 0.0, for the byte lookup
     pts = numpy.unique(pts, axis=0)
     fp = _values(expr, sc.symbols, pts)
     ok = numpy.isfinite(fp)
@@ -117,6 +166,8 @@ def search_points(expr, sc: Scalarised, kind: str, seed: int = SEED):
     lookup = {p.tobytes(): k for k, p in enumerate(pts)}
     li, lj = [], []
     for pa, pb in local:
+        pa = numpy.where(signs * pa < 0, 0.0, pa) + 0.0
+        pb = numpy.where(signs * pb < 0, 0.0, pb) + 0.0
         for x, y in zip(pa, pb):
             ka, kb = lookup.get(x.tobytes()), lookup.get(y.tobytes())
             if ka is not None and kb is not None and ka != kb:
@@ -156,6 +207,8 @@ def _data_trials(sc: Scalarised, rng) -> list[dict]:
         for m, (d, (_, sign)) in enumerate(sc.data.items()):
             # First trial: distinct values, so that two data that may differ do differ.
             v = float(1 + m) if k == 0 else float(rng.choice(choices))
+            if d in sc.integers:
+                v = float(math.ceil(v)) + (k > 1)  # a length or a count: a whole number
             if sign < 0 or (sign == 0 and k > 1 and rng.random() < 0.5):
                 v = -v
             values[d] = v
@@ -163,45 +216,65 @@ def _data_trials(sc: Scalarised, rng) -> list[dict]:
     return trials
 
 
-def find(expr, model, facts, kind: str, tested: str) -> dict | None:
-    """The witness evidence for ``expr`` (see the module docstring), or None if none was found."""
+def find(expr, model, facts, kind: str, tested: str, elementwise: bool = False) -> dict | None:
+    """The witness evidence for ``expr`` (see the module docstring), or None if none was found.
+
+    ``elementwise``: ``expr`` may be a vector (a constraint holds entry by entry). For a set
+    witness the function tested is the largest entry (<= 0 exactly where every entry is); otherwise
+    each of the first entries in turn, since every entry must be convex (affine).
+    """
     # Bounded by counts (points, pairs, data trials), not by the clock: a clock budget would make
     # the evidence depend on machine load, and two runs must give identical output.
     try:
-        sc = scalarise(expr, model, facts)
+        sc = scalarise(expr, model, facts, entries=elementwise)
     except Unsupported:
         return None
+    if len(sc.entries) > 1 and kind == "set":
+        candidates = [(sympy.Max(*sc.entries), f"the largest entry of {tested}")]
+    elif len(sc.entries) > 1:
+        candidates = [(e, f"entry {k} (flattened) of {tested}") for k, e in enumerate(sc.entries)]
+    else:
+        candidates = [(sc.expr, tested)]
     rng = numpy.random.default_rng(SEED)
     for values in _data_trials(sc, rng):
-        f = sc.expr.xreplace({d: sympy.Float(v) if not float(v).is_integer() else sympy.Integer(int(v))
-                              for d, v in values.items()}) if values else sc.expr
-        try:
-            found = search_points(f, sc, kind)
-        except Unsupported:
-            return None
-        if found is None:
-            continue
-        a, b, t, fa, fb, ft = found
-        used = sorted(str(s) for s in f.free_symbols)
-        order = [k for k, s in enumerate(sc.symbols) if str(s) in used]
-        out = {
-            "kind": kind,
-            "tested": tested,
-            "expression": str(f),
-            "variables": [str(sc.symbols[k]) for k in order],
-            "a": [float(a[k]) for k in order],
-            "b": [float(b[k]) for k in order],
-            "t": float(t),
-            "f_a": float(fa), "f_b": float(fb), "f_t": float(ft),
-            "variable_map": {str(sc.symbols[k]): sc.labels[k] for k in order},
-            "sizes": {name: list(dims) for name, dims in sc.sizes.items()},
-        }
-        if values:
-            out["data"] = {sc.data[d][0]: v for d, v in values.items()}
-        if sc.notes:
-            out["notes"] = list(sc.notes)
-        return out
+        subs = {d: sympy.Float(v) if not float(v).is_integer() else sympy.Integer(int(v)) for d, v in values.items()}
+        for g, what in candidates:
+            found = _search(g.xreplace(subs) if subs else g, sc, kind)
+            if found is not None:
+                return _evidence(sc, kind, what, values, *found)
     return None
+
+
+def _search(f, sc: Scalarised, kind: str):
+    if f.has(sympy.zoo, sympy.nan) or not f.free_symbols:
+        return None  # data values that divide by zero leave the instance undefined: try others
+    try:
+        found = search_points(f, sc, kind)
+    except Unsupported:
+        return None
+    return None if found is None else (f, *found)
+
+
+def _evidence(sc: Scalarised, kind, tested, values, f, a, b, t, fa, fb, ft) -> dict:
+    used = {str(s) for s in f.free_symbols}
+    order = [k for k, s in enumerate(sc.symbols) if str(s) in used]
+    out = {
+        "kind": kind,
+        "tested": tested,
+        "expression": str(f),
+        "variables": [str(sc.symbols[k]) for k in order],
+        "a": [float(a[k]) for k in order],
+        "b": [float(b[k]) for k in order],
+        "t": float(t),
+        "f_a": float(fa), "f_b": float(fb), "f_t": float(ft),
+        "variable_map": {str(sc.symbols[k]): sc.labels[k] for k in order},
+        "sizes": {name: list(dims) for name, dims in sc.sizes.items()},
+    }
+    if values:
+        out["data"] = {sc.data[d][0]: v for d, v in values.items()}
+    if sc.notes:
+        out["notes"] = list(sc.notes)
+    return out
 
 
 def for_judgement(analysis, j) -> dict | None:
@@ -220,8 +293,8 @@ def for_judgement(analysis, j) -> dict | None:
     relation = j.item.relation
     if relation in ("<=", "<", ">=", ">"):
         side = "lhs - rhs" if relation in ("<=", "<") else "rhs - lhs"
-        return (find(expr, model, facts, "set", f"{side} of the constraint (feasible where <= 0)")
-                or find(expr, model, facts, "function", f"{side} of the constraint"))
+        return (find(expr, model, facts, "set", f"{side} of the constraint (feasible where <= 0)", True)
+                or find(expr, model, facts, "function", f"{side} of the constraint", True))
     if relation == "==":
-        return find(expr, model, facts, "not-affine", "lhs - rhs of the equality")
+        return find(expr, model, facts, "not-affine", "lhs - rhs of the equality", True)
     return None

@@ -2,8 +2,8 @@
 
 Layout (our own): a file heading with its count, then for each finding the source line with its
 number, and beneath it the severity, the rule id and the message, and the failing step of the
-derivation; then a count per rule and the summary line (inline acceptances and baseline matches
-included). Colour only on a terminal and never when NO_COLOR is set (rich honours both); every
+derivation (with ``--show-derivation`` also the whole derivation tree and the witness as a sentence);
+then a count per rule and the summary line (inline acceptances and baseline matches included). Colour only on a terminal and never when NO_COLOR is set (rich honours both); every
 piece of user text is passed as plain text, never as markup. A progress bar goes to stderr, only
 when it is a terminal and the run has at least ``PROGRESS_MIN_FILES`` files, and vanishes after.
 """
@@ -46,7 +46,9 @@ def with_progress(console: Console, files: list[str], work) -> list:
 
 
 def render(console: Console, results, files_skipped: int, problems, quiet: bool = False,
-           stats: dict | None = None) -> None:
+           stats: dict | None = None, explain=None) -> None:
+    """``explain(path, finding)``, when given, returns renderables printed under each finding (the
+    derivation tree and the witness sentence of ``--show-derivation``)."""
     for path, message in problems:
         console.print(Text(f"{path}: {message}", style="red"))
     total = Counter()
@@ -65,11 +67,29 @@ def render(console: Console, results, files_skipped: int, problems, quiet: bool 
         console.print(head)
         for f in result.findings:
             _finding(console, result, f)
+            if explain is not None:
+                for part in explain(result.path, f):
+                    print_wide(console, part, indent=9)
         console.print()
     if by_rule and not quiet:
         for rule, n in sorted(by_rule.items(), key=lambda kv: (-kv[1], kv[0])):
             console.print(Text(f"  {n:>4}  {rule}", style="dim"))
     _summary(console, total, results, files_skipped, stats or {})
+
+
+def print_wide(console: Console, renderable, indent: int = 0) -> None:
+    """Print ``renderable`` (a derivation tree, a sentence) indented and never cropped: a tree's
+    labels are expressions, and cutting one at the terminal's width would hide what it says."""
+    options = console.options.update(width=100_000, no_wrap=True, overflow="ignore")
+    if isinstance(renderable, str):
+        renderable = Text.from_markup(renderable)
+    for line in console.render_lines(renderable, options, pad=False):
+        text = Text(" " * indent)
+        for segment in line:
+            if not segment.control:
+                text.append(segment.text, segment.style)
+        text.rstrip()
+        console.print(text, soft_wrap=True)
 
 
 def _finding(console: Console, result, f) -> None:

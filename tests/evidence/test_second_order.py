@@ -212,3 +212,19 @@ def test_dsl_proved_expressions_are_undisciplined_convex(tmp_path):
         assert got[line].evidence["proof"] in ("second-order", "normal-form")
     assert got[13].rule == "nonconvex-objective"  # x*y: really not convex, keeps its witness
     assert "witness" in got[13].evidence
+
+
+def test_budgets_refuse_what_sympy_cannot_afford():
+    # A Float in an exponent is read exactly (0.3 = 5404319552844595 / 2^54); sympy's polynomial
+    # algebra would take exp(0.3 n^2) as (exp(n^2 / 2^54))^5404319552844595 and fill memory.
+    from optlint.evidence.second_order import _degree_bound, _exponents_small
+
+    c = sp.Rational(sp.Float(0.3))
+    assert not _exponents_small(sp.exp(c * N**2)) and not _exponents_small(N ** (c + 1))
+    assert _exponents_small(sp.exp(N / 2) + N ** sp.Rational(3, 2))
+    # degree over a common denominator: (x + 1)^3 (y - 1)^2 is 5; x/(y + 1) + y is 3 once together
+    assert _degree_bound((X + 1) ** 3 * (Y - 1) ** 2) == 5
+    assert _degree_bound(X / (Y + 1) + Y) >= 3
+    # such expressions get no proof (sound), and promptly: the 5,000-example property run spent
+    # most of an hour and 7.7 GB in them before these budgets
+    assert prove_convex(sp.Float(1.35) * sp.exp(N) + sp.exp(sp.Float(0.5477) * N**2), MODEL, FACTS) is None

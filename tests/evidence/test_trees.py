@@ -38,10 +38,12 @@ def test_tree_marks_the_failing_step_once():
 
 
 def test_tree_of_a_proved_part_names_the_proof():
-    line = next(f.site.line for f in check_file(str(SHIFT)).findings if "quad_over_lin" in f.message)
-    console = _console()
-    assert trees_at(str(SHIFT), line, console) == 0
-    assert "second-order" in console.export_text()
+    # a²/y with y > 0 is quad_over_lin (a normal form); (0.5d - 1)(d - 2) = 0.5(d - 2)² needs the Hessian
+    for atom, method in (("quad_over_lin", "normal-form"), ("square", "second-order")):
+        line = next(f.site.line for f in check_file(str(SHIFT)).findings if f"cp.{atom}" in f.message)
+        console = _console()
+        assert trees_at(str(SHIFT), line, console) == 0
+        assert f"proved beyond the rules ({method})" in console.export_text()
 
 
 def test_nothing_at_a_line_without_a_model_part():
@@ -76,3 +78,28 @@ def test_witness_sentences_recompute():
             if checked >= 12:
                 return
     assert checked >= 5
+
+
+def test_check_shows_derivation_and_witness_only_when_asked():
+    # the real command line in a subprocess; the finding's tree and witness sentence go under it
+    from conftest import run_cli
+
+    target = str(DELIVERY)
+    plain = run_cli("check", "--no-cache", target)
+    shown = run_cli("check", "--no-cache", "--show-derivation", target)
+    assert plain.returncode == shown.returncode == 1
+    for marker in ("✗ ", "leaf-variable", "witness: for f(x_0, x_1) = "):
+        assert marker not in plain.stdout and marker in shown.stdout
+    tree = [row for row in shown.stdout.splitlines() if "──" in row]
+    assert any("✗" in row and "product of two non-constant expressions" in row for row in tree)
+    sentence = next(row for row in shown.stdout.splitlines() if "witness: " in row)
+    # the numbers of the sentence recompute (B&V 2004 §3.1.1, from memory)
+    finding = next(f for f in check_file(target).findings if f.rule == "nonconvex-objective")
+    w = finding.evidence["witness"]
+    assert witness_sentence(w) in sentence and "not convex" in sentence
+    for point, name in ((w["a"], "f(a)"), (w["b"], "f(b)")):
+        mine = evaluate(w["expression"], dict(zip(w["variables"], point)))
+        assert abs(_numbers(sentence, name) - mine) <= 1e-5 * (1 + abs(mine))
+    # a proved part shows its proof instead of a witness
+    proved = run_cli("check", "--no-cache", "--show-derivation", str(SHIFT))
+    assert "proved beyond the rules (normal-form)" in proved.stdout and "witness:" not in proved.stdout

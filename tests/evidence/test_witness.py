@@ -61,14 +61,22 @@ def test_every_witness_recomputes(claims):
 
 
 def test_witness_share(claims):
-    """Share of non-convexity claims with a witness (goal >= 90% for objective + penalty; floor 75% as measured)."""
+    """Every non-convex objective and penalty finding of the fixtures carries a witness (each is
+    re-evaluated by test_every_witness_recomputes); the share over every claim rule is printed."""
     total, found = Counter(), Counter()
-    for _, f in claims:
+    missing = []
+    for where, f in claims:
         total[f.rule] += 1
         found[f.rule] += "witness" in f.evidence
+        if "witness" not in f.evidence:
+            missing.append(f"{where}:{f.site.line} {f.rule}")
+    print("\nwitness share: " + ", ".join(f"{r} {found[r]}/{total[r]}" for r in CLAIMS)
+          + f"; all {sum(found.values())}/{sum(total.values())}")
     core = ("nonconvex-objective", "nonconvex-penalty")
-    share = sum(found[r] for r in core) / sum(total[r] for r in core)
-    assert share >= 0.75, (share, dict(found), dict(total))
+    assert sum(total[r] for r in core) >= 25
+    assert all(found[r] == total[r] for r in core), [m for m in missing if m.split()[-1] in core]
+    # The other claims (weight signs, inequalities, equalities) are held to a floor, as measured.
+    assert sum(found.values()) >= 0.9 * sum(total.values()), missing
 
 
 def test_witness_expression_uses_only_listed_variables(claims):
