@@ -3,12 +3,23 @@
 - 0: no finding at or above the failing severity (``--fail-on``, default ``warning``);
 - 1: at least one finding at or above it;
 - 2: usage error (unknown option, missing path, unknown rule id), a configuration error (file,
-  key and what was expected), an unreadable baseline, a failed git query or a broken plugin.
+  key and what was expected), an unreadable baseline, a failed git query or a broken plugin;
+- 3: the run was incomplete: at least one file was not fully checked because optlint itself
+  failed on it (an ``internal-error`` finding, whatever its severity and even when a baseline
+  records it). 3 takes precedence over 1 (the findings that were reached are still reported),
+  2 over both.
 
 ``optlint check PATH...`` checks files and directories; ``optlint baseline PATH...`` writes the
 current findings to a baseline file; ``optlint rules`` lists the rules; ``optlint explain RULE``
 prints a rule's rationale, reference and examples. Command-line options override the
 ``[tool.optlint]`` configuration (``optlint.config``).
+
+``optlint rewrite PATH...`` prints, as a unified diff, the exact rewrites it would make
+(``optlint.rewrite``) and changes nothing: exit 0 when there is nothing to rewrite, 1 when there
+is (so it works as a check). With ``--apply`` it writes them: exit 0 when every rewrite was
+written, 1 when a file could not be written. Usage and configuration errors exit 2 and a file
+optlint itself failed on exits 3, as above. A file whose rewrite fails its re-check is left as it
+was and named on stderr.
 """
 
 from __future__ import annotations
@@ -20,7 +31,7 @@ import sys
 
 from optlint import __version__
 
-EXIT_OK, EXIT_FINDINGS, EXIT_USAGE = 0, 1, 2
+EXIT_OK, EXIT_FINDINGS, EXIT_USAGE, EXIT_INCOMPLETE = 0, 1, 2, 3
 
 
 class _Parser(argparse.ArgumentParser):
@@ -45,6 +56,8 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument("--quiet", action="store_true", help="print only the summary line (text format)")
     check.add_argument("--no-color", action="store_true", help="plain text even on a terminal")
     check.add_argument("--no-progress", action="store_true", help="no progress bar, even on a terminal")
+    check.add_argument("--show-derivation", action="store_true",
+                       help="under each finding, its derivation tree and its witness as a sentence (text format)")
 
     base = sub.add_parser("baseline", help="write the current findings to a baseline file")
     _run_options(base)
@@ -55,6 +68,18 @@ def build_parser() -> argparse.ArgumentParser:
     rules = sub.add_parser("rules", help="list the rules with their default severity")
     rules.add_argument("--format", choices=("text", "markdown"), default="text",
                        help="markdown: the table the README carries")
+    rewrite = sub.add_parser("rewrite", help="show (or --apply) the exact rewrites of undisciplined-convex, "
+                                             "degenerate-constraint and strict-inequality findings")
+    rewrite.add_argument("paths", nargs="*", default=["."], help="files or directories (default: .)")
+    rewrite.add_argument("--apply", action="store_true", help="write the rewrites instead of printing the diff")
+    for flag, kwargs in (("--exclude", dict(metavar="GLOB", help="skip paths matching GLOB (repeatable)")),
+                         ("--include", dict(metavar="GLOB", help="only files matching GLOB (repeatable)")),
+                         ("--severity", dict(metavar="RULE=LEVEL", help="as for check; `off` leaves a rule's "
+                                                                        "findings unrewritten (repeatable)"))):
+        rewrite.add_argument(flag, action="append", default=[], **kwargs)
+    rewrite.add_argument("--config", metavar="FILE", help="read [tool.optlint] from FILE")
+    rewrite.add_argument("--no-config", action="store_true", help="use no configuration file")
+    rewrite.set_defaults(dialect=[], changed_since=None, no_accept_comments=False)
     derive = sub.add_parser("derive", help="print the derivation trees of the model parts at PATH:LINE")
     derive.add_argument("location", metavar="PATH:LINE", help="a file and the line an objective or constraint starts on")
     derive.add_argument("--no-color", action="store_true", help="plain text even on a terminal")
@@ -97,6 +122,8 @@ def main(argv: list[str] | None = None) -> int:
         return cmd_check(args)
     if args.command == "rules":
         return cmd_rules(args.format)
+    if args.command == "rewrite":
+        return cmd_rewrite(args)
     if args.command == "derive":
         return cmd_derive(args.location, args.no_color)
     if args.command == "explain":
@@ -197,12 +224,15 @@ def cmd_check(args) -> int:
         return EXIT_USAGE if problems else EXIT_OK
 
     stats = {"accepted_inline": sum(r.accepted for r in checked)}
+    # before the baseline: a recorded internal error still leaves this run incomplete
+    crashed = sorted({r.path for r in checked if any(f.rule == "internal-error" for f in r.findings)})
     if entries is not None:
         matched, stale = filter_baseline(checked, entries)
         stats["baseline"] = {"file": baseline_path, "matched": matched, "unmatched_entries": stale}
     findings = [f for r in checked for f in r.findings]
     fail_on = args.fail_on or config.fail_on or "warning"
     failed = fails(findings, fail_on)
+    incomplete = bool(crashed)  # whatever severity it was given
     if args.format == "json":
         from optlint.report.json_report import render
 
@@ -210,13 +240,25 @@ def cmd_check(args) -> int:
     elif args.format == "sarif":
         from optlint.report.sarif import render
 
-        sys.stdout.write(render(checked, problems, stats, options.root, success=not problems) + "\n")
+        sys.stdout.write(render(checked, problems, stats, options.root,
+                                success=not problems and not incomplete) + "\n")
     else:
         from optlint.report.text import make_console, render
 
-        render(make_console(sys.stdout, args.no_color), checked, skipped, problems, args.quiet, stats)
+        explain = None
+        if args.show_derivation:
+            from optlint.trees import FindingTrees
+
+            explain = FindingTrees(options).renderables
+        render(make_console(sys.stdout, args.no_color), checked, skipped, problems, args.quiet, stats, explain)
+    if incomplete:
+        n = len(crashed)
+        sys.stderr.write(f"optlint: the run was incomplete: {n} file{'s were' if n != 1 else ' was'} not fully "
+                         f"checked (internal-error)\n")
     if problems:
         return EXIT_USAGE
+    if incomplete:
+        return EXIT_INCOMPLETE
     return EXIT_FINDINGS if failed else EXIT_OK
 
 
@@ -264,6 +306,61 @@ def cmd_rules(fmt: str = "text") -> int:
     for rule in rules.values():
         sys.stdout.write(f"{rule.id:<{width}}  {rule.severity:<7}  {rule.summary}\n")
     return EXIT_OK
+
+
+def cmd_rewrite(args) -> int:
+    """Preview (a unified diff on stdout) or --apply the exact rewrites; notes on stderr."""
+    from optlint.rewrite import rewrite_file
+
+    try:
+        _, options, files, problems = _prepare(args)
+    except UsageError as exc:
+        sys.stderr.write(f"optlint: {exc}\n")
+        return EXIT_USAGE
+    for path, message in problems:
+        sys.stderr.write(f"optlint: {path}: {message}\n")
+    if problems and not files:
+        return EXIT_USAGE
+    pending = failed = written = broken = 0
+    for path in files:
+        if path.endswith(".ipynb"):
+            continue  # notebooks are JSON: their cells are not rewritten in place
+        try:
+            outcome = rewrite_file(path, options)
+        except OSError as exc:
+            sys.stderr.write(f"optlint: {path}: cannot read: {exc.strerror or exc}\n")
+            failed += 1
+            continue
+        for line, rule, why in outcome.notes:
+            sys.stderr.write(f"optlint: {path}:{line}: {rule} left as a suggestion: {why}\n")
+        if outcome.refused:
+            sys.stderr.write(f"optlint: {path}: not rewritten: {outcome.refused}\n")
+        broken += outcome.failed
+        if not outcome.changed:
+            continue
+        if not args.apply:
+            sys.stdout.write(outcome.diff())
+            pending += 1
+            continue
+        try:
+            with open(path, "wb") as fh:
+                fh.write(outcome.rewritten)
+            written += 1
+        except OSError as exc:
+            sys.stderr.write(f"optlint: {path}: cannot write: {exc.strerror or exc}\n")
+            failed += 1
+    if args.apply:
+        sys.stderr.write(f"optlint: rewrote {written} file{'s' if written != 1 else ''}\n")
+    elif pending:
+        sys.stderr.write(f"optlint: {pending} file{'s' if pending != 1 else ''} would be rewritten "
+                         f"(run with --apply to write)\n")
+    else:
+        sys.stderr.write("optlint: nothing to rewrite\n")
+    if problems:
+        return EXIT_USAGE
+    if broken:
+        return EXIT_INCOMPLETE
+    return EXIT_FINDINGS if (pending or failed) else EXIT_OK
 
 
 def cmd_derive(location: str, no_color: bool = False) -> int:

@@ -199,8 +199,23 @@ class _Validator:
         c.assumptions = self.assume(t.get("assume", {}), f"{k}.assume")
         c.intended = [self.intended(e, f"{k}.intended[{i}]") for i, e in enumerate(self.array(t, "intended"))]
         if "baseline" in t:
-            c.baseline = os.path.join(c.root, self.string(t["baseline"], f"{k}.baseline"))
+            c.baseline = self.inside(t["baseline"], f"{k}.baseline", c.root)
         return c
+
+    def inside(self, value, key: str, root: str) -> str:
+        """A path the command writes to: relative to the project root and inside it (links resolved)."""
+        text = self.string(value, key)
+        if os.path.isabs(text):
+            self.fail(key, f"a path relative to the project root, not the absolute path {text!r}")
+        target = os.path.normpath(os.path.join(root, text))
+        real_root, real = os.path.realpath(root), os.path.realpath(target)
+        try:
+            inside = os.path.commonpath([real_root, real]) == real_root
+        except ValueError:  # another drive
+            inside = False
+        if not inside or real == real_root:
+            self.fail(key, f"a file inside the project root ({root}); {text!r} leads outside it")
+        return target
 
     def array(self, t: dict, name: str) -> list:
         value = t.get(name, [])

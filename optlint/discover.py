@@ -7,8 +7,10 @@ negation, trailing ``/`` for directories, leading ``/`` or an inner ``/`` for an
 environments, caches) are skipped. A file named explicitly is always checked, whatever its suffix
 or ignore status, but ``--exclude``/``--include`` and the configuration's globs apply to it (so a
 pre-commit run honours them). Symlinked directories are not followed, so a link loop cannot trap
-the walk. Changed-files mode asks git (an argument list, never a shell string; the revision is
-validated first) which files differ from a revision and keeps only those.
+the walk; a source name that is not a readable regular file (a broken or looping link, a pipe)
+is listed, so that the engine reports it as a ``file-error`` instead of the walk hiding it.
+Changed-files mode asks git (an argument list, never a shell string; the revision is validated
+first) which files differ from a revision and keeps only those.
 """
 
 from __future__ import annotations
@@ -223,14 +225,18 @@ def _walk(root, rel_dir, stack, add, excluded, problems) -> None:
         path = os.path.join(root, rel)
         try:
             is_dir = entry.is_dir(follow_symlinks=False)
-            is_file = entry.is_file()
         except OSError:
             continue
+        try:
+            is_file = entry.is_file()
+            linked_dir = not is_file and entry.is_dir()
+        except OSError:  # a symbolic link loop: listed, so that the engine reports it
+            is_file = linked_dir = False
         if is_dir:
             if entry.name in ALWAYS_SKIPPED_DIRS or _ignored(rel, True, stack) or excluded(path):
                 continue
             _walk(root, rel, stack, add, excluded, problems)
-        elif is_file and entry.name.endswith(SUFFIXES):
+        elif not linked_dir and entry.name.endswith(SUFFIXES):  # files, and what only looks like one
             if _ignored(rel, False, stack) or excluded(path):
                 continue
             add(path)

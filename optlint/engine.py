@@ -3,7 +3,11 @@
 Per file: read bytes -> prefilter (which dialects may be present) -> decode / notebook join ->
 libcst parse -> recognise (dialect -> Model IR) -> analyse -> rules -> superseded findings dropped
 -> severities applied. A file that cannot be read, decoded or parsed yields one finding and the run
-goes on; an unexpected exception inside a stage yields an ``internal-error`` finding for that file.
+goes on; an unexpected exception inside a stage yields an ``internal-error`` finding for that file
+(inside one rule: for that rule, and the other rules still run). A path that is not a regular file
+is never opened; a file over the size limit is scanned in blocks for a model import and, if it has
+one, reported as not checked. Nesting that would crash or stall libcst is refused first, and the
+stages after the prefilter run with a deep stack (``optlint.nesting``).
 sympy is imported only when a file passes the prefilter. After the rules, the policy stage
 (``optlint.policy``) applies the project's severities, intended non-convexity and inline
 acceptances, and fingerprints each finding for the baseline and SARIF.
@@ -18,6 +22,7 @@ from __future__ import annotations
 
 import inspect
 import os
+import stat
 import traceback
 from dataclasses import dataclass, field
 
@@ -74,9 +79,18 @@ def _site(path: str, line: int, column: int = 1) -> Site:
 
 
 def check_file(path: str, options: Options | None = None) -> FileResult:
-    options = options or Options()
+    return _guarded(path, options or Options(), _check_file)
+
+
+def check_data(path: str, data: bytes, options: Options | None = None) -> FileResult:
+    """``check_file`` of ``data`` as if it were the file's content (``optlint rewrite`` checks a
+    rewritten file before writing it; sibling modules are still read beside ``path``)."""
+    return _guarded(path, options or Options(), lambda p, o: _check_data(p, data, o))
+
+
+def _guarded(path: str, options: Options, check) -> FileResult:
     try:
-        result = _check_file(path, options)
+        result = check(path, options)
     except Exception as exc:  # the engine's promise: one broken file never stops the run
         result = FileResult(path, [_internal(path, exc)], True)
     if len(result.fingerprints) != len(result.findings):
@@ -86,21 +100,32 @@ def check_file(path: str, options: Options | None = None) -> FileResult:
     return result
 
 
-def _internal(path: str, exc: BaseException) -> Finding:
+def _internal(path: str, exc: BaseException, rule: str | None = None) -> Finding:
     frame = traceback.extract_tb(exc.__traceback__)[-1] if exc.__traceback__ else None
     where = f" in {os.path.basename(frame.filename)}:{frame.lineno}" if frame else ""
+    during = f"rule {rule}: " if rule else ""
+    evidence = {"exception": type(exc).__name__}
+    if rule:
+        evidence["rule"] = rule
     return Finding(
         rule="internal-error", site=_site(path, 1), severity="error",
-        message=(f"optlint failed on this file ({type(exc).__name__}{where}): {exc}. The rest of the run "
+        message=(f"optlint failed on this file ({during}{type(exc).__name__}{where}): {exc}. The rest of the run "
                  f"went on; please report this with the file or a reduced copy of it."),
-        evidence={"exception": type(exc).__name__},
+        evidence=evidence,
     )
 
 
 def _check_file(path: str, options: Options) -> FileResult:
     try:
-        size = os.path.getsize(path)
+        info = os.stat(path)
+        if not stat.S_ISREG(info.st_mode):  # opening a FIFO would wait for a writer forever
+            return _early(path, [Finding("file-error", _site(path, 1),
+                                         "not a regular file (a pipe, socket or device); not checked",
+                                         "error")], options)
+        size = info.st_size
         if size > MAX_FILE_BYTES:
+            if not _large_file_dialects(path, options):
+                return FileResult(path, [], False)  # skipped as any file without a model import
             return _early(path, [Finding("file-error", _site(path, 1),
                                          f"file is larger than {MAX_FILE_BYTES // (1024 * 1024)} MiB; not checked",
                                          "warning", {"bytes": size})], options)
@@ -109,7 +134,32 @@ def _check_file(path: str, options: Options) -> FileResult:
     except OSError as exc:
         return _early(path, [Finding("file-error", _site(path, 1),
                                      f"cannot read file: {exc.strerror or exc}", "error")], options)
+    return _check_data(path, data, options)
 
+
+def _large_file_dialects(path: str, options: Options) -> tuple[str, ...]:
+    """The prefilter's answer for a file over the size limit, read in blocks of whole lines
+    (generous, as the prefilter is: for a notebook, any library name in its raw JSON)."""
+    from optlint.prefilter import WORDS, dialects_in
+
+    notebook = path.endswith(".ipynb")
+
+    def scan(block: bytes):
+        if notebook:  # its code lines are JSON strings: any library name counts
+            return [name for name, word in WORDS.items() if word in block]
+        return dialects_in(block)
+
+    found: set[str] = set()
+    rest = b""  # the unfinished last line of the previous block, scanned again with its end
+    with open(path, "rb") as fh:
+        while block := fh.read(1 << 20):
+            block = rest + block
+            found.update(scan(block))
+            rest = block[block.rfind(b"\n") + 1:][-65536:]  # cut off, a line start is only more generous
+    return tuple(d for d in sorted(found) if options.dialects is None or d in options.dialects)
+
+
+def _check_data(path: str, data: bytes, options: Options) -> FileResult:
     dialects = scan_dialects(path, data)
     if options.dialects is not None:
         dialects = tuple(d for d in dialects if d in options.dialects)
@@ -123,6 +173,13 @@ def _check_file(path: str, options: Options) -> FileResult:
     except SourceError as exc:
         return _early(path, [Finding("syntax-error", _site(path, exc.line, exc.column), str(exc), "error")], options)
 
+    from optlint.nesting import deep_call
+
+    return deep_call(_analyse, path, source, dialects, options)
+
+
+def _analyse(path, source, dialects, options) -> FileResult:
+    """Parse, recognise, run the rules and the policy: in a thread with a deep stack (nesting.py)."""
     findings, models = _parse_and_recognise(path, source, dialects, options)
     dialect_of: dict[int, str] = {}
     if models:
@@ -146,10 +203,14 @@ def _parse_and_recognise(path, source, dialects, options):
     from optlint.dialects import load
 
     from optlint.elide import elide_large_literals
+    from optlint.nesting import refusal
 
     text, elided = elide_large_literals(source.text)  # data tables: libcst would take minutes on them
     if elided:
         source.text = text  # the policy stage's tokenizer reads the same light text; lines stay as shown
+    refused = refusal(text)  # nesting libcst would crash or stall on
+    if refused is not None:
+        return [Finding(refused.rule, _site(path, refused.line, refused.column), refused.message)], []
     try:
         module = cst.parse_module(text)
     except cst.ParserSyntaxError as exc:
@@ -196,6 +257,7 @@ def _run_rules(models, dialect_of: dict[int, str]) -> list[Finding]:
     from optlint.plugins import registry
 
     findings: list[Finding] = []
+    failed: set[tuple[str, str]] = set()
     for model in models:
         analysis = ModelAnalysis(model)
         for rule in registry().values():
@@ -203,8 +265,9 @@ def _run_rules(models, dialect_of: dict[int, str]) -> list[Finding]:
                 continue
             try:
                 produced = list(rule.check(model, analysis))
-            except RecursionError as exc:
-                produced = [_internal(model.path, exc)]
+            except Exception as exc:  # one failing rule costs its own findings only
+                produced = [] if (rule.id, type(exc).__name__) in failed else [_internal(model.path, exc, rule.id)]
+                failed.add((rule.id, type(exc).__name__))
             for f in produced:
                 dialect_of[id(f)] = model.dialect
                 remark = model.remarks.get((f.site.line, f.site.column, f.rule))

@@ -59,6 +59,10 @@ class SourceFacts:
         self._tokens: list[tokenize.TokenInfo] | None = None
         self._spans: list[tuple[int, int]] | None = None
         self._functions: list[tuple[int, int, str]] | None = None
+        # Per line, the tokens that start on it; and normalised text per statement span. A line of
+        # thousands of constraints has thousands of findings: each must not rescan every token.
+        self._by_line: dict[int, list[str]] | None = None
+        self._normalised: dict[tuple[int, int], str] = {}
 
     @property
     def tokens(self) -> list[tokenize.TokenInfo]:
@@ -100,10 +104,18 @@ class SourceFacts:
         return best or (line, line)
 
     def normalised(self, first: int, last: int) -> str:
-        toks = [t.string for t in self.tokens if first <= t.start[0] <= last and t.type not in _LAYOUT]
-        if toks:
-            return " ".join(toks)
-        return " ".join(" ".join(self.lines[first - 1:last]).split())
+        done = self._normalised.get((first, last))
+        if done is not None:
+            return done
+        if self._by_line is None:
+            self._by_line = {}
+            for t in self.tokens:
+                if t.type not in _LAYOUT:
+                    self._by_line.setdefault(t.start[0], []).append(t.string)
+        toks = [s for line in range(first, last + 1) for s in self._by_line.get(line, ())]
+        text = " ".join(toks) if toks else " ".join(" ".join(self.lines[first - 1:last]).split())
+        self._normalised[(first, last)] = text
+        return text
 
     def function_at(self, line: int) -> list[str]:
         """Qualified names (``f``, ``Class.method``) of the functions enclosing ``line``."""

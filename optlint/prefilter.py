@@ -13,10 +13,11 @@ import json
 import re
 
 # One import signature per dialect. A module-level import, an indented one (inside a function or
-# try block), `import a, cvxpy` and `from cvxpy.atoms import norm` all match.
+# try block), `import a, cvxpy` and `from cvxpy.atoms import norm` all match, also on a first line
+# behind a UTF-8 byte order mark and after a form feed (both allowed by Python's tokenizer).
 def _imports(library: bytes) -> re.Pattern[bytes]:
-    return re.compile(rb"^[ \t]*(?:from[ \t]+" + library + rb"\b|import[ \t]+[^\n#]*\b" + library + rb"\b)",
-                      re.MULTILINE)
+    return re.compile(rb"^(?:\xef\xbb\xbf)?[ \t\f]*(?:from[ \t]+" + library + rb"\b|import[ \t]+[^\n#]*\b"
+                      + library + rb"\b)", re.MULTILINE)
 
 
 class _Lagrangian:
@@ -65,23 +66,28 @@ def dialects_in(data: bytes) -> tuple[str, ...]:
 
 
 def scan_dialects(path: str, data: bytes) -> tuple[str, ...]:
-    """Dialects a file may hold, from its bytes (a notebook: from its code cells only)."""
+    """Dialects a file may hold, from its bytes (a notebook: from its code cells only; one that is
+    not a notebook's JSON, e.g. with merge-conflict markers, by the library names alone, so that
+    the reader reports it instead of the run skipping it)."""
     if path.endswith(".ipynb"):
         if not any(word in data for word in WORDS.values()):
             return ()
-        return dialects_in(notebook_code(data))
+        code = notebook_code(data)
+        if code is None:
+            return tuple(name for name, word in WORDS.items() if word in data)
+        return dialects_in(code)
     return dialects_in(data)
 
 
-def notebook_code(data: bytes) -> bytes:
-    """The code cells of a notebook, joined, for the byte scan (b"" when the JSON is not a notebook)."""
+def notebook_code(data: bytes) -> bytes | None:
+    """The code cells of a notebook, joined, for the byte scan (None when the JSON is not a notebook)."""
     try:
         nb = json.loads(data)
     except (ValueError, UnicodeDecodeError, RecursionError):
-        return b""
+        return None
     cells = nb.get("cells") if isinstance(nb, dict) else None
     if not isinstance(cells, list):
-        return b""
+        return None
     parts = []
     for cell in cells:
         if isinstance(cell, dict) and cell.get("cell_type") == "code":

@@ -7,7 +7,9 @@
   file's result. A result also records the hashes of the other files its analysis read (helpers
   imported from sibling modules); a changed dependency invalidates it. Entries are written to a
   temporary file and renamed into place, so concurrent runs never see half an entry; an entry
-  that does not parse is ignored and rewritten. The cache directory carries its own .gitignore.
+  that does not parse is ignored and rewritten. The cache directory carries its own .gitignore;
+  a cache directory that links out of the project root is not used, and a result with an
+  ``internal-error`` is not stored.
 """
 
 from __future__ import annotations
@@ -72,8 +74,18 @@ def _options_key(options: Options) -> str:
     return _digest(json.dumps(parts, sort_keys=True).encode())
 
 
+def _inside(path: str, top: str) -> bool:
+    """Whether ``path`` stays inside ``top`` once symbolic links are resolved."""
+    real, real_top = os.path.realpath(path), os.path.realpath(top)
+    try:
+        return os.path.commonpath([real, real_top]) == real_top
+    except ValueError:
+        return False
+
+
 class Cache:
     def __init__(self, root: str, options: Options):
+        self.root = root
         self.dir = os.path.join(root, CACHE_DIR_NAME, f"v{CACHE_FORMAT}")
         self.options_key = _options_key(options)
         self.hits = 0
@@ -81,6 +93,11 @@ class Cache:
 
     def _entry_path(self, key: str) -> str:
         return os.path.join(self.dir, key[:2], key + ".json")
+
+    def _contained(self, target: str) -> bool:
+        # A cache directory (or a folder in it) that is a link out of the project is not used:
+        # entries are neither read from nor written to somewhere the project does not own.
+        return _inside(os.path.dirname(target), self.root)
 
     def key(self, path: str, data: bytes) -> str:
         return _digest(b"\0".join([self.options_key.encode(), os.path.abspath(path).encode(),
@@ -93,6 +110,8 @@ class Cache:
         except OSError:
             return None, None
         key = self.key(path, data)
+        if not self._contained(self._entry_path(key)):
+            return None, None
         try:
             with open(self._entry_path(key), encoding="utf-8") as fh:
                 entry = json.load(fh)
@@ -109,6 +128,8 @@ class Cache:
         return result, key
 
     def put(self, key: str, result: FileResult) -> None:
+        if any(f.rule == "internal-error" for f in result.findings):
+            return  # the failure may depend on this machine (memory, stack): try again next run
         deps = {}
         for dep in getattr(result, "dependencies", []) or []:
             try:
@@ -117,6 +138,8 @@ class Cache:
             except OSError:
                 return  # a dependency we cannot read: do not cache a result that relied on it
         target = self._entry_path(key)
+        if not self._contained(target):
+            return
         try:
             os.makedirs(os.path.dirname(target), exist_ok=True)
             self._write_gitignore()

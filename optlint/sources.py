@@ -64,7 +64,7 @@ def notebook_source(path: str, data: bytes) -> Source:
     try:
         nb = json.loads(data.decode("utf-8-sig"))
     except (UnicodeDecodeError, ValueError, RecursionError) as exc:
-        raise SourceError(f"notebook is not valid JSON: {exc}")
+        raise SourceError(f"notebook is not valid JSON: {exc}", getattr(exc, "lineno", 1), getattr(exc, "colno", 1))
     cells = nb.get("cells") if isinstance(nb, dict) else None
     if not isinstance(cells, list):
         raise SourceError("notebook has no list of cells")

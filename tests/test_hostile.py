@@ -1,4 +1,4 @@
-"""Hostile inputs that must neither hang nor lose the rest of the file (first cases; more to come).
+"""Hostile inputs that must neither hang nor lose the rest of the file (the rest: tests/robust/).
 
 A data table pasted into a model file is parsed by libcst token by token (minutes for a 1,000 x
 1,000 matrix); optlint elides such numeric literals before parsing, keeping every other line and
