@@ -94,6 +94,10 @@ class _Builder:
     def __init__(self, model, facts, default_dim: int, needs: dict, root=None):
         self.needs = needs
         self.root = root
+        # data symbols used in an index (loop targets, keys): they name positions (see ``integer``)
+        self.keys = set() if root is None else {
+            s for node in sympy.preorder_traversal(root) if isinstance(node, F.index)
+            for s in node.args[1].free_symbols if isinstance(s, DataSymbol) and s not in facts.variables}
         self.model = model
         self.facts = facts
         self.default_dim = default_dim
@@ -181,6 +185,10 @@ class _Builder:
             if values.size > MAX_LITERAL or values.ndim > 2:
                 raise Unsupported("literal too large")
             return _obj(values)
+        if sym in self.keys:  # a key also used as a number: the same value in both places, or none
+            if not sym.is_integer:
+                raise Unsupported("index used as a number")
+            return numpy.array(self.key(sym), dtype=object)
         return self.placeholder(sym, str(sym), _sign_of(sym)[0] if not sym.is_zero else 0, bool(sym.is_integer))
 
     def placeholder(self, key, name: str, sign: int, integer: bool) -> numpy.ndarray:
@@ -252,18 +260,25 @@ class _Builder:
         return self.integer(part)
 
     def integer(self, expr) -> int:
+        """The position an index expression picks. A symbolic key (a loop target, data) is taken
+        at the first element of what it ranges over, position 0; a key that is not known to be an
+        integer (a loop over a pyomo set, a list of names) is a position only, never a number."""
         subs = {}
         for s in expr.free_symbols:
-            if s in self.facts.variables or not isinstance(s, DataSymbol) or not s.is_integer:
+            if s in self.facts.variables or not isinstance(s, DataSymbol):
                 raise Unsupported("index")
-            if s not in self.index_syms:
-                self.index_syms[s] = sympy.Integer(0)
-                self.out.notes.append(f"index `{str(s).split('#')[0]}` taken at its first element (0)")
-            subs[s] = sympy.Integer(0)
+            subs[s] = self.key(s)
         value = expr.xreplace(subs) if subs else expr
         if not value.is_Integer:
             raise Unsupported("index")
         return int(value)
+
+    def key(self, s) -> sympy.Integer:
+        if s not in self.index_syms:
+            self.index_syms[s] = sympy.Integer(0)
+            what = "its first element (0)" if s.is_integer else "the first element of what it ranges over"
+            self.out.notes.append(f"index `{str(s).split('#')[0]}` taken at {what}")
+        return self.index_syms[s]
 
     # -- atoms --------------------------------------------------------------------------------
     def atom(self, node, args) -> numpy.ndarray:

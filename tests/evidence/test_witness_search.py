@@ -125,3 +125,17 @@ def test_entry_of_data_of_unknown_shape_is_data():
     w = _witness(F.index(weights, k) * X**2)
     (name,) = w["data"]
     assert name.startswith("weights[") and w["data"][name] < 0
+
+
+def test_key_of_unknown_kind_is_a_position_only():
+    # a loop over a set of names (not range) gives a key that is not an integer: v[p] * x is a
+    # product of two variables (not convex) whichever entry p picks
+    p = data("p#1", real=True)
+    w = _witness(F.index(V, p) * X)
+    assert any("first element of what it ranges over" in note for note in w["notes"])
+    # used as a number as well, the key would need one value for both roles: no instance is made
+    model, facts = _setup()
+    assert find(-p * F.index(V, p) ** 2, model, facts, "function", "the case") is None
+    k = data("k#1", integer=True)  # an integer (range) index: the same value, 0, in both roles
+    w = _witness(-(k + 1) * F.index(V, k) ** 2)
+    assert w["expression"] == "-x_0**2"
