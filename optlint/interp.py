@@ -36,7 +36,7 @@ from typing import Any
 
 import libcst as cst
 import sympy
-from libcst.metadata import PositionProvider, QualifiedNameSource
+from libcst.metadata import QualifiedNameSource
 
 from optlint.calculus import functions as F
 from optlint.ir import Site
@@ -44,6 +44,7 @@ from optlint import guards
 from optlint.names import QualifiedNames
 from optlint.names import dotted as _dotted
 from optlint.lift import DataSymbol, data, involves, is_expr, number_from_literal, safe_pow
+from optlint.positions import positions
 
 # The run's configuration (engine.Options) while a file is recognised; set by the engine.
 OPTIONS: ContextVar = ContextVar("optlint_options", default=None)
@@ -307,7 +308,7 @@ class Interpreter:
         self.path = path
         self.hooks = hooks
         self.registry = registry
-        self.positions = wrapper.resolve(PositionProvider)
+        self.positions = positions(wrapper)  # computed on first use (optlint/positions.py)
         self.qualnames = QualifiedNames(wrapper.module)  # imports resolved cheaply; see optlint/names.py
         self.star_modules = self._star_imports()
         self.variables: set[sympy.Symbol] = set()

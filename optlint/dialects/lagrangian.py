@@ -743,10 +743,10 @@ def _sub_blocks(stmt) -> list[list]:
 
 class _Facts:
     def __init__(self, scan: _Scan, wrapper: cst.MetadataWrapper, path: str):
-        from libcst.metadata import PositionProvider
+        from optlint.positions import positions
 
         self.scan, self.path = scan, path
-        self.positions = wrapper.resolve(PositionProvider)
+        self.positions = positions(wrapper)  # computed only if a multiplier is placed
         self.lift = _Lifter(scan)
 
     def site(self, node) -> Site:

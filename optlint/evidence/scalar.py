@@ -235,7 +235,7 @@ class _Builder:
         if node.func in _ELEMENTWISE:
             return _map1(node.func, args[0])
         if isinstance(node, (sympy.Max, sympy.Min)):
-            return _fold(args, lambda a, b: _map2(node.func, a, b))
+            return _fold(args, lambda a, b: _map2(_UNEVALUATED[node.func], a, b))
         return self.atom(node, args)
 
     def index(self, node) -> numpy.ndarray:
@@ -326,9 +326,9 @@ class _Builder:
             es = list(a.ravel())
             return _scalar(_restrict(len(es) / sympy.Add(*[1 / e for e in es]), sympy.And(*[e > 0 for e in es])))
         if f is F.vmax:
-            return _scalar(sympy.Max(*a.ravel()))
+            return _scalar(_max(*a.ravel()))
         if f is F.vmin:
-            return _scalar(sympy.Min(*a.ravel()))
+            return _scalar(_min(*a.ravel()))
         if f is F.tv:
             v = a.ravel()
             return _scalar(sympy.Add(*[sympy.Abs(v[i + 1] - v[i]) for i in range(len(v) - 1)]))
@@ -345,7 +345,7 @@ class _Builder:
         es = list(a.ravel())
         if f is F.pnorm:
             if p is sympy.oo:
-                return _scalar(sympy.Max(*[sympy.Abs(e) for e in es]))
+                return _scalar(_max(*[sympy.Abs(e) for e in es]))
             if p == 2:
                 return _scalar(sympy.sqrt(sympy.Add(*[e ** 2 for e in es])))
             if p == 1:
@@ -367,7 +367,7 @@ class _Builder:
             k = int(p)
             if not 1 <= k <= len(es) or len(es) > 8:
                 raise Unsupported("sum_largest")
-            pick = sympy.Max if f is F.sum_largest else sympy.Min
+            pick = _max if f is F.sum_largest else _min
             return _scalar(pick(*[sympy.Add(*c) for c in itertools.combinations(es, k)]))
         raise Unsupported(f"atom {f.__name__}")
 
@@ -412,6 +412,47 @@ def _restrict(expr, cond):
     return sympy.Piecewise((expr, cond), (sympy.oo, True))
 
 
+# Max and Min are built unevaluated: the scalar function is only evaluated numerically (witness
+# search) or re-evaluated on substitution (second-order proofs), and sympy's evaluation of a max
+# compares every pair of entries under assumptions (seconds for a few hundred entries; cProfile
+# on the model fixtures: 15 % of the whole run).
+def _max(*args):
+    return sympy.Max(*args, evaluate=False)
+
+
+def _min(*args):
+    return sympy.Min(*args, evaluate=False)
+
+
+_UNEVALUATED = {sympy.Max: _max, sympy.Min: _min}
+
+
+def substitute(expr, subs: dict):
+    """``expr.xreplace(subs)`` that rebuilds Max and Min unevaluated (xreplace would evaluate
+    them again); every other node is rebuilt as xreplace does."""
+    memo: dict = {}
+
+    def walk(e):
+        if e in subs:
+            return subs[e]
+        if not e.args:
+            return e
+        done = memo.get(e)
+        if done is not None:
+            return done
+        args = tuple(walk(a) for a in e.args)
+        if args == e.args:
+            out = e
+        elif isinstance(e, (sympy.Max, sympy.Min)):
+            out = e.func(*args, evaluate=False)
+        else:
+            out = e.func(*args)
+        memo[e] = out
+        return out
+
+    return walk(expr)
+
+
 def _neg_log(e):
     return _restrict(-e * sympy.log(e), e > 0)
 
@@ -422,8 +463,8 @@ _SCALAR_FORMS = {
     F.kl_div: lambda x, y: _restrict(x * sympy.log(x) - x * sympy.log(y) - x + y, sympy.And(x > 0, y > 0)),
     F.logistic: lambda x: sympy.log(1 + sympy.exp(x)),
     F.inv_pos: lambda x: _restrict(1 / x, x > 0),
-    F.pos: lambda x: sympy.Max(x, 0),
-    F.neg: lambda x: sympy.Max(-x, 0),
+    F.pos: lambda x: _max(x, 0),
+    F.neg: lambda x: _max(-x, 0),
     F.log1p: lambda x: sympy.log(1 + x),
     F.xexp: lambda x: _restrict(x * sympy.exp(x), x >= 0),
 }

@@ -32,7 +32,7 @@ import numpy
 import sympy
 
 from .numeric import evaluate
-from .scalar import Scalarised, Unsupported, scalarise
+from .scalar import Scalarised, Unsupported, scalarise, substitute
 
 SEED = 20261201
 _RANDOM_POINTS = 600
@@ -121,7 +121,19 @@ def _points(sc: Scalarised, rng, roots) -> numpy.ndarray:
     pts = numpy.where(signs > 0, numpy.abs(pts), numpy.where(signs < 0, -numpy.abs(pts), pts))
     zero = (pts == 0) & strict
     pts = numpy.where(zero, 0.25 * signs, pts)
-    return numpy.unique(pts, axis=0)
+    return _unique_rows(pts)
+
+
+def _unique_rows(pts: numpy.ndarray) -> numpy.ndarray:
+    """The distinct rows of ``pts`` in lexicographic order (what numpy's unique over axis 0 gives),
+    by a column ``lexsort``: unique over rows sorts a structured view field by field, 3-10x slower
+    on the witness batches (up to 25,000 points of 49 coordinates on the fixtures)."""
+    if len(pts) < 2:
+        return pts
+    s = pts[numpy.lexsort(pts.T[::-1])]
+    keep = numpy.ones(len(s), dtype=bool)
+    keep[1:] = numpy.any(s[1:] != s[:-1], axis=1)
+    return s[keep]
 
 
 def _pairs(m: int, rng) -> tuple[numpy.ndarray, numpy.ndarray]:
@@ -157,7 +169,7 @@ def search_points(expr, sc: Scalarised, kind: str, seed: int = SEED):
         local.append((line[a], line[b]))
     pts = numpy.vstack([centres] + [p for pair in local for p in pair])
     pts = numpy.where(signs * pts < 0, 0.0, pts) + 0.0  # + 0.0: -0.0 becomes 0.0, for the byte lookup
-    pts = numpy.unique(pts, axis=0)
+    pts = _unique_rows(pts)
     fp = _values(expr, sc.symbols, pts)
     ok = numpy.isfinite(fp)
     pts, fp = pts[ok], fp[ok]
@@ -230,7 +242,7 @@ def find(expr, model, facts, kind: str, tested: str, elementwise: bool = False) 
     except Unsupported:
         return None
     if len(sc.entries) > 1 and kind == "set":
-        candidates = [(sympy.Max(*sc.entries), f"the largest entry of {tested}")]
+        candidates = [(sympy.Max(*sc.entries, evaluate=False), f"the largest entry of {tested}")]
     elif len(sc.entries) > 1:
         candidates = [(e, f"entry {k} (flattened) of {tested}") for k, e in enumerate(sc.entries)]
     else:
@@ -239,7 +251,7 @@ def find(expr, model, facts, kind: str, tested: str, elementwise: bool = False) 
     for values in _data_trials(sc, rng):
         subs = {d: sympy.Float(v) if not float(v).is_integer() else sympy.Integer(int(v)) for d, v in values.items()}
         for g, what in candidates:
-            found = _search(g.xreplace(subs) if subs else g, sc, kind)
+            found = _search(substitute(g, subs) if subs else g, sc, kind)
             if found is not None:
                 return _evidence(sc, kind, what, values, *found)
     return None
