@@ -136,6 +136,22 @@ def _unique_rows(pts: numpy.ndarray) -> numpy.ndarray:
     return s[keep]
 
 
+def _row_finder(pts: numpy.ndarray):
+    """A function from an array of rows to the index of each row in ``pts`` (-1 where absent),
+    matching rows byte for byte (as a dict of ``row.tobytes()`` would, without a Python loop)."""
+    void = numpy.dtype((numpy.void, pts.dtype.itemsize * pts.shape[1]))
+    keys = numpy.ascontiguousarray(pts).view(void).ravel()
+    order = numpy.argsort(keys, kind="stable")
+    ordered = keys[order]
+
+    def find(rows: numpy.ndarray) -> numpy.ndarray:
+        q = numpy.ascontiguousarray(rows, dtype=pts.dtype).view(void).ravel()
+        at = numpy.minimum(numpy.searchsorted(ordered, q), len(ordered) - 1)
+        return numpy.where(ordered[at] == q, order[at], -1)
+
+    return find
+
+
 def _pairs(m: int, rng) -> tuple[numpy.ndarray, numpy.ndarray]:
     if m * (m - 1) // 2 <= 4000:
         i, j = numpy.triu_indices(m, 1)
@@ -175,19 +191,17 @@ def search_points(expr, sc: Scalarised, kind: str, seed: int = SEED):
     pts, fp = pts[ok], fp[ok]
     if len(pts) < 2:
         return None
-    lookup = {p.tobytes(): k for k, p in enumerate(pts)}
+    find = _row_finder(pts)
     li, lj = [], []
     for pa, pb in local:
-        pa = numpy.where(signs * pa < 0, 0.0, pa) + 0.0
-        pb = numpy.where(signs * pb < 0, 0.0, pb) + 0.0
-        for x, y in zip(pa, pb):
-            ka, kb = lookup.get(x.tobytes()), lookup.get(y.tobytes())
-            if ka is not None and kb is not None and ka != kb:
-                li.append(ka)
-                lj.append(kb)
+        ka = find(numpy.where(signs * pa < 0, 0.0, pa) + 0.0)
+        kb = find(numpy.where(signs * pb < 0, 0.0, pb) + 0.0)
+        keep = (ka >= 0) & (kb >= 0) & (ka != kb)
+        li.append(ka[keep])
+        lj.append(kb[keep])
     fi, fj = _pairs(len(pts), rng)
-    i = numpy.concatenate([numpy.array(li, dtype=int), fi])
-    j = numpy.concatenate([numpy.array(lj, dtype=int), fj])
+    i = numpy.concatenate(li + [fi]).astype(int)
+    j = numpy.concatenate(lj + [fj]).astype(int)
     best = None
     for t in (0.5, 0.25):
         mids = t * pts[i] + (1 - t) * pts[j]
