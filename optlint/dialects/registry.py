@@ -22,6 +22,7 @@ class Registry:
         self._constraints: dict[tuple, Constraint] = {}
         self.skipped_sites: set[tuple] = set()
         self._canonical: dict = {}
+        self._canonical_of: dict = {}  # expression -> its canonical form; cleared when _canonical changes
 
     # -- declarations ------------------------------------------------------------------------
 
@@ -29,20 +30,30 @@ class Registry:
         """Record a declaration; ``where`` (line, column) identifies its source site."""
         self.model.declarations[decl.symbol] = decl
         self._canonical[decl.symbol] = sympy.Symbol(f"{decl.name}@{where[0]}:{where[1]}")
+        self._canonical_of.clear()
 
     def alias(self, symbol, variable, tag: str) -> None:
         """``symbol`` stands for ``variable`` at the place ``tag`` (a DSL written operation): variants
         that differ only in such aliases of one place are one variant."""
         self._canonical[symbol] = sympy.Symbol(f"{self._canonical.get(variable, variable)}~{tag}")
+        self._canonical_of.clear()
 
     def _same_up_to_renaming(self, a, b) -> bool:
         """Variants equal once each declared symbol is replaced by one symbol for its site."""
         if a == b:
             return True
         try:
-            return a.xreplace(self._canonical) == b.xreplace(self._canonical)
+            return self._canonical_form(a) == self._canonical_form(b)
         except (AttributeError, TypeError):
             return False
+
+    def _canonical_form(self, e):
+        """``e`` with every declared symbol renamed for its site (memoised: each new variant is
+        compared with every earlier one)."""
+        found = self._canonical_of.get(e)
+        if found is None:
+            found = self._canonical_of[e] = e.xreplace(self._canonical)
+        return found
 
     # -- model parts -------------------------------------------------------------------------
 

@@ -52,7 +52,14 @@ def _affine_root(node, index) -> tuple[int, float] | None:
     """For an affine piece c·x + d (any number of variables): the coordinate with the largest
     coefficient and where the piece vanishes along it, the others at 0."""
     free = node.free_symbols
-    if not free or not free <= set(index) or not node.is_polynomial(*free):
+    if not free or not free <= set(index):
+        return None
+    simple = _linear_terms(node)
+    if simple is not None:  # c_1 x_1 + ... + d as written: no Poly needed (same answer, cheaper)
+        const, coeffs = simple
+        x = max(coeffs, key=lambda s: abs(coeffs[s]))
+        return index[x], _dyadic(-const / coeffs[x], _FINE)
+    if not node.is_polynomial(*free):
         return None
     try:
         poly = sympy.Poly(node, *sorted(free, key=str))
@@ -68,6 +75,24 @@ def _affine_root(node, index) -> tuple[int, float] | None:
             coeffs[poly.gens[monom.index(1)]] = float(c)
     x = max(coeffs, key=lambda s: abs(coeffs[s]))
     return index[x], _dyadic(-const / coeffs[x], _FINE)
+
+
+def _linear_terms(node):
+    """(d, {x: c}) when every term of the sum is a number, a symbol or a number times a symbol
+    (coefficients in the order Poly lists its generators: by name), else None."""
+    const, coeffs = 0.0, {}
+    for term in node.args:
+        if term.is_Number:
+            const += float(term)
+        elif term.is_Symbol:
+            coeffs[term] = coeffs.get(term, 0.0) + 1.0
+        elif term.is_Mul and len(term.args) == 2 and term.args[0].is_Number and term.args[1].is_Symbol:
+            coeffs[term.args[1]] = coeffs.get(term.args[1], 0.0) + float(term.args[0])
+        else:
+            return None
+    if not coeffs or any(c == 0.0 for c in coeffs.values()):
+        return None
+    return const, {x: coeffs[x] for x in sorted(coeffs, key=str)}
 
 
 def _roots(expr, symbols) -> list[tuple[int, float]]:
