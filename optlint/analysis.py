@@ -32,6 +32,7 @@ from optlint.calculus import functions as F
 from optlint.calculus import Analysis, Budget, Curvature, Derivation, Facts, analyse, blame
 from optlint.ir import Constraint, Model, Objective
 from optlint.printer import show
+from optlint.lift import preorder
 
 
 @dataclass
@@ -216,7 +217,7 @@ def _quadratic_forms(expr, model: Model):
         return v in variables and decl is not None and decl.shape is not None and len(decl.shape) == 1
 
     found = {}
-    for node in sympy.preorder_traversal(expr):
+    for node in preorder(expr):
         if not isinstance(node, F.matmul):
             continue
         outer_l, outer_r = node.args

@@ -72,3 +72,16 @@ def involves(expr, variables: frozenset) -> bool:
     if not isinstance(expr, sympy.Basic) or not variables:
         return False
     return bool(expr.free_symbols & variables)
+
+
+def preorder(expr):
+    """The nodes of a sympy expression, parents before children, in ``args`` order. sympy's own
+    ``preorder_traversal`` walks a Min, Max, And or Or through its frozenset of arguments, whose
+    order changes with the process's string hashing (PYTHONHASHSEED): a witness search seeded from
+    it gave different points from run to run."""
+    stack = [expr]
+    while stack:
+        node = stack.pop()
+        yield node
+        if isinstance(node, sympy.Basic):
+            stack.extend(reversed(node.args))

@@ -238,9 +238,12 @@ def test_the_cache_does_not_follow_a_link_out_of_the_project(tmp_path):
 def test_two_runs_give_byte_identical_json(tmp_path):
     from conftest import FIXTURES, run_cli
 
-    args = ("check", "--no-config", "--no-cache", "--format", "json", str(FIXTURES / "tour"))
-    first = run_cli(*args, "--jobs", "1", env={"PYTHONHASHSEED": "1"})
-    second = run_cli(*args, "--jobs", "2", env={"PYTHONHASHSEED": "4242"})
+    # trial_allocation_grid: a witness search over a Min, whose sympy traversal followed string
+    # hashing; under these two seeds it found different points before optlint.lift.preorder
+    args = ("check", "--no-config", "--no-cache", "--format", "json", str(FIXTURES / "tour"),
+            str(FIXTURES / "penalties" / "trial_allocation_grid.py"))
+    first = run_cli(*args, "--jobs", "1", env={"PYTHONHASHSEED": "0"})
+    second = run_cli(*args, "--jobs", "2", env={"PYTHONHASHSEED": "1"})
     assert first.returncode == second.returncode == 1, first.stderr + second.stderr
     assert json.loads(first.stdout)["findings"]
     assert first.stdout.encode() == second.stdout.encode()

@@ -22,6 +22,7 @@ from optlint.calculus import functions as F
 from optlint.dialects.registry import Registry
 from optlint.interp import NONE, DialectHooks, GlobalRef, Interpreter, ListVal, Opaque
 from optlint.ir import Declaration
+from optlint.lift import preorder
 
 _INF_NAMES = {"numpy.inf", "numpy.Inf", "numpy.infty", "numpy.PINF", "math.inf", "casadi.inf"}
 SIGNS = ("positive", "nonnegative", "negative", "nonpositive")
@@ -148,7 +149,7 @@ def _dot(a, b):
     """np.dot: a vector with itself is its sum of squares (the usual ``np.dot(r, r)``); when reshaping
     or matrix products are involved the operands may be matrices, and the matrix product is kept."""
     matrix_like = (F.reshape, F.matmul, F.transpose, F.stack)
-    if a == b and not any(isinstance(n, matrix_like) for n in sympy.preorder_traversal(a)):
+    if a == b and not any(isinstance(n, matrix_like) for n in preorder(a)):
         return F.vsum(a * a)
     return F.matmul(a, b)
 

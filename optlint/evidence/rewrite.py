@@ -27,6 +27,7 @@ import sympy
 from optlint.calculus import Curvature, Sign
 from optlint.calculus import functions as F
 from optlint.printer import show
+from optlint.lift import preorder
 
 _HALF = sympy.Rational(1, 2)
 
@@ -210,7 +211,7 @@ _FORMS = (_norm, _lse, _division, _inverse, _square)
 
 def find(expr, analysis) -> Rewrite | None:
     """The first subexpression (outermost first) with a known disciplined spelling, or None."""
-    for node in sympy.preorder_traversal(expr):
+    for node in preorder(expr):
         if not isinstance(node, sympy.Basic) or not analysis.has_variables(node):
             continue
         for form in _FORMS:
@@ -320,13 +321,13 @@ def proves(expr, analysis, want: Curvature) -> dict[str, Any] | None:
         return None
     found: list[Rewrite] = []
     skip: set = set()
-    for node in sympy.preorder_traversal(expr):
+    for node in preorder(expr):
         if node in skip or not isinstance(node, sympy.Basic) or not analysis.has_variables(node):
             continue
         form = _norm(analysis, node) or _lse(analysis, node) or _positive_quad_over_lin(analysis, node)
         if form is not None:
             found.append(form)
-            skip.update(sympy.preorder_traversal(node))
+            skip.update(preorder(node))
         if len(found) > 16:
             return None
     if not found:

@@ -36,7 +36,7 @@ import sympy
 from sympy.core.function import AppliedUndef
 
 from optlint.calculus import functions as F
-from optlint.lift import DataSymbol
+from optlint.lift import DataSymbol, preorder
 from optlint.printer import show
 
 MAX_SCALARS = 64
@@ -96,7 +96,7 @@ class _Builder:
         self.root = root
         # data symbols used in an index (loop targets, keys): they name positions (see ``integer``)
         self.keys = set() if root is None else {
-            s for node in sympy.preorder_traversal(root) if isinstance(node, F.index)
+            s for node in preorder(root) if isinstance(node, F.index)
             for s in node.args[1].free_symbols if isinstance(s, DataSymbol) and s not in facts.variables}
         self.model = model
         self.facts = facts
@@ -526,7 +526,7 @@ def _map_n(fn, *args) -> numpy.ndarray:
 def _index_needs(expr, variables) -> dict:
     """Least size per axis of each variable, from its constant indices and slices (x[0], X[1, 2], x[3:])."""
     needs: dict = {}
-    for node in sympy.preorder_traversal(expr):
+    for node in preorder(expr):
         if not isinstance(node, F.index) or node.args[0] not in variables:
             continue
         spec = node.args[1]
@@ -550,7 +550,7 @@ def _least_size(part) -> int:
 
 
 def _ops(expr) -> int:
-    return sum(1 for _ in sympy.preorder_traversal(expr))
+    return sum(1 for _ in preorder(expr))
 
 
 def scalarise(expr, model, facts, entries: bool = False) -> Scalarised:

@@ -33,6 +33,7 @@ import numpy
 import sympy
 
 from .scalar import Unsupported, scalarise
+from optlint.lift import preorder
 
 MAX_SYMBOLIC = 3
 MAX_QUADRATIC = 16
@@ -44,7 +45,7 @@ REFERENCE = "B&V 2004 §3.1.4 (second-order conditions)"
 
 
 def _nodes(expr) -> int:
-    return sum(1 for _ in sympy.preorder_traversal(expr))
+    return sum(1 for _ in preorder(expr))
 
 
 def _exact(expr):
@@ -54,7 +55,7 @@ def _exact(expr):
 
 
 def _smooth_on_domain(f) -> bool:
-    for node in sympy.preorder_traversal(f):
+    for node in preorder(f):
         if isinstance(node, (sympy.Symbol, sympy.Number)) or getattr(node, "is_NumberSymbol", False):
             continue
         if isinstance(node, (sympy.Add, sympy.Mul)) or node.func is sympy.exp:
@@ -208,7 +209,7 @@ def _exponents_small(f) -> bool:
     (exp(x/q))^p and x^(p/q) as (x^(1/q))^p and builds a dense polynomial of degree p in that
     generator. A Float such as 0.3 is read exactly as 5404319552844595/2^54, so a minor with
     exp(0.3·x) would need ~10^16 coefficients: memory is exhausted long before an answer."""
-    for node in sympy.preorder_traversal(f):
+    for node in preorder(f):
         if isinstance(node, sympy.Pow):
             spot = node.exp
         elif node.func is sympy.exp:
@@ -236,7 +237,7 @@ def prove_convex(expr, model, facts) -> dict[str, Any] | None:
     if _nodes(f) > MAX_NODES * 4 or not _smooth_on_domain(f):
         return None
     if any(isinstance(n, sympy.Pow) and n.exp.is_Number and abs(n.exp) > MAX_EXPONENT
-           for n in sympy.preorder_traversal(f)):
+           for n in preorder(f)):
         return None  # expanding or differentiating (g)**1000 costs memory, not insight
     if not _exponents_small(f):
         return None

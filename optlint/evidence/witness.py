@@ -33,6 +33,7 @@ import sympy
 
 from .numeric import evaluate
 from .scalar import Scalarised, Unsupported, scalarise, substitute
+from optlint.lift import preorder
 
 SEED = 20261201
 _RANDOM_POINTS = 600
@@ -100,7 +101,7 @@ def _roots(expr, symbols) -> list[tuple[int, float]]:
     exp(-(x - 60)^2) is non-convex only near x = 60, a cusp |r|^p or a cap min(c, |r|) near r = 0)."""
     out: list[tuple[int, float]] = []
     index = {s: k for k, s in enumerate(symbols)}
-    for node in sympy.preorder_traversal(expr):
+    for node in preorder(expr):
         if not isinstance(node, sympy.Add) or len(node.args) > 64:
             continue
         found = _affine_root(node, index)

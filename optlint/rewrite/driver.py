@@ -28,6 +28,7 @@ import libcst as cst
 from optlint.rewrite import forms
 from optlint.rewrite.codemod import Namer, apply
 from optlint.rewrite.observe import Observation, observe
+from optlint.lift import preorder
 
 MAX_ROUNDS = 4
 RULES = ("undisciplined-convex", "degenerate-constraint", "strict-inequality")
@@ -291,7 +292,7 @@ def _preorder(expr, limit: int = 50_000):
     if not isinstance(expr, sympy.Basic):
         return []
     out = []
-    for i, node in enumerate(sympy.preorder_traversal(expr)):
+    for i, node in enumerate(preorder(expr)):
         if i >= limit:
             break
         out.append(node)
