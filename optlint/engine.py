@@ -203,12 +203,13 @@ def _parse_and_recognise(path, source, dialects, options):
     from optlint.dialects import load
 
     from optlint.elide import elide_large_literals
-    from optlint.nesting import refusal
+    from optlint.nesting import checked_parse
+    from optlint.positions import install
 
     text, elided = elide_large_literals(source.text)  # data tables: libcst would take minutes on them
     if elided:
         source.text = text  # the policy stage's tokenizer reads the same light text; lines stay as shown
-    refused = refusal(text)  # nesting libcst would crash or stall on
+    refused, tree = checked_parse(text)  # nesting libcst would crash or stall on
     if refused is not None:
         return [Finding(refused.rule, _site(path, refused.line, refused.column), refused.message)], []
     try:
@@ -222,6 +223,7 @@ def _parse_and_recognise(path, source, dialects, options):
     from optlint.interp import OPTIONS
 
     wrapper = cst.MetadataWrapper(module, unsafe_skip_copy=True)
+    install(wrapper, text, tree)  # statement lines from CPython's tree: see optlint/positions.py
     models = []
     token = OPTIONS.set(options)  # declared atoms and assumptions reach the interpreter this way
     try:

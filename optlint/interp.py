@@ -329,6 +329,7 @@ class Interpreter:
         self.foreign_names: dict[Any, tuple[Any, tuple[str, ...]]] = {}  # node -> (qualnames, star modules)
         self.foreign_modules: dict[str, Env | None] = {}  # sibling module path -> its top-level names
         self.methods: list[tuple[Any, Any]] = []  # (owner class, self) of the methods being run
+        self.running: list[Any] = []  # the statements being executed, outermost first (for positions)
 
     # -- entry -----------------------------------------------------------------------------
 
@@ -421,10 +422,11 @@ class Interpreter:
     def position(self, node: cst.CSTNode):
         """Source range of a node of this file; a node of a sibling module is placed at the call in
         this file that led into it."""
-        rng = self.positions.get(node)
+        within = getattr(self.positions, "within", None)  # one statement's code, not the module's
+        rng = within(node, self.running) if within else self.positions.get(node)
         if rng is None:
             for anchor in self.anchors:
-                rng = self.positions.get(anchor)
+                rng = within(anchor, self.running) if within else self.positions.get(anchor)
                 if rng is not None:
                     break
         if rng is None:
@@ -436,7 +438,9 @@ class Interpreter:
         return Site(self.path, rng.start.line, rng.start.column + 1, rng.end.line, rng.end.column + 1)
 
     def line(self, node: cst.CSTNode) -> int:
-        return self.position(node).start.line
+        statement_line = getattr(self.positions, "statement_line", None)
+        found = statement_line(node) if statement_line else None
+        return found if found is not None else self.position(node).start.line
 
     def code(self, node: cst.CSTNode) -> str:
         text = self.module.code_for_node(node)
@@ -459,6 +463,13 @@ class Interpreter:
 
     def exec_stmt(self, stmt, env: Env) -> None:
         self.tick()
+        self.running.append(stmt)
+        try:
+            self._exec_stmt(stmt, env)
+        finally:
+            self.running.pop()
+
+    def _exec_stmt(self, stmt, env: Env) -> None:
         if isinstance(stmt, (cst.SimpleStatementLine, _SuiteLine)):
             for small in stmt.body:
                 self.exec_small(small, env)

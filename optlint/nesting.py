@@ -36,24 +36,30 @@ class Refusal:
 
 def refusal(text: str) -> Refusal | None:
     """Why ``text`` must not reach libcst, or None."""
+    return checked_parse(text)[0]
+
+
+def checked_parse(text: str) -> tuple[Refusal | None, ast.Module | None]:
+    """(why ``text`` must not reach libcst or None, CPython's tree of it or None): the tree also
+    places statements for optlint.positions."""
     try:
         tree = ast.parse(text)
     except SyntaxError as exc:
         if exc.msg in _CPYTHON_NESTING:
             return Refusal("syntax-error", exc.lineno or 1, exc.offset or 1,
-                           f"file does not parse: {exc.msg}")
-        return None
+                           f"file does not parse: {exc.msg}"), None
+        return None, None
     except (RecursionError, MemoryError):  # CPython's parser stack or AST construction overflowed
         return Refusal("syntax-error", 1, 1,
-                       "file is nested too deeply for Python's own parser; not checked")
+                       "file is nested too deeply for Python's own parser; not checked"), None
     except ValueError:  # e.g. a NUL byte: libcst reports it
-        return None
+        return None, None
     depth, node = _deepest(tree)
     if depth > MAX_DEPTH:
         return Refusal("file-error", node.lineno, node.col_offset + 1,
                        f"expression nested more than {MAX_DEPTH} levels deep (each term of a sum "
-                       f"written out is a level); optlint does not follow it; file not checked")
-    return None
+                       f"written out is a level); optlint does not follow it; file not checked"), None
+    return None, tree
 
 
 def _deepest(tree: ast.AST) -> tuple[int, ast.AST]:
