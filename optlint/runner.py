@@ -10,11 +10,18 @@
   that does not parse is ignored and rewritten. The cache directory carries its own .gitignore;
   a cache directory that links out of the project root is not used, and a result with an
   ``internal-error`` is not stored.
+- Entries are signed (HMAC-SHA256) with a key that lives outside the project, in the user's cache
+  directory (``$XDG_CACHE_HOME/optlint/key``, else ``~/.cache/optlint/key``, created on first
+  use, readable by the user only): an entry committed to the repository, copied from another
+  machine or edited by hand has no valid signature and is ignored and rewritten, so nobody can
+  plant a clean result for a file through the cache. Where no key can be kept, each run uses a
+  fresh one (entries written by other runs are then never trusted).
 """
 
 from __future__ import annotations
 
 import hashlib
+import hmac
 import json
 import os
 import tempfile
@@ -28,7 +35,7 @@ from optlint.findings import Finding
 from optlint.ir import Site
 
 CACHE_DIR_NAME = ".optlint_cache"
-CACHE_FORMAT = 1
+CACHE_FORMAT = 2  # 2: entries are signed
 MIN_FILES_PER_WORKER = 8
 
 
@@ -41,6 +48,49 @@ def default_jobs() -> int:
 
 def _digest(data: bytes) -> str:
     return hashlib.sha256(data).hexdigest()
+
+
+_KEY: bytes | None = None
+
+
+def _key_dir() -> str:
+    base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
+    return os.path.join(base, "optlint")
+
+
+def signing_key() -> bytes:
+    """This user's cache-signing key (created once, atomically, mode 0600; see the module doc)."""
+    global _KEY
+    if _KEY is None:
+        path = os.path.join(_key_dir(), "key")
+        try:
+            with open(path, "rb") as fh:
+                key = fh.read()
+            if len(key) < 32:
+                raise OSError("short key")
+        except OSError:
+            key = os.urandom(32)
+            try:
+                os.makedirs(os.path.dirname(path), mode=0o700, exist_ok=True)
+                fd, tmp = tempfile.mkstemp(dir=os.path.dirname(path), prefix=".key-")
+                with os.fdopen(fd, "wb") as fh:
+                    fh.write(key)
+                try:
+                    os.link(tmp, path)  # atomic, and never replaces a key another run just made
+                except FileExistsError:  # another run made one meanwhile (whole: it was linked)
+                    with open(path, "rb") as fh:
+                        key = fh.read()
+                finally:
+                    os.unlink(tmp)
+            except OSError:
+                pass  # no place for a key: this run's own, so no earlier entry is trusted
+        _KEY = key
+    return _KEY
+
+
+def _sign(body: dict) -> str:
+    text = json.dumps(body, sort_keys=True, separators=(",", ":")).encode()
+    return hmac.new(signing_key(), text, hashlib.sha256).hexdigest()
 
 
 def _rules_fingerprint() -> list[str]:
@@ -115,6 +165,9 @@ class Cache:
         try:
             with open(self._entry_path(key), encoding="utf-8") as fh:
                 entry = json.load(fh)
+            body = {"result": entry["result"], "dependencies": entry.get("dependencies", {})}
+            if not hmac.compare_digest(str(entry.get("signature", "")), _sign(body)):
+                raise ValueError("unsigned or forged cache entry")  # ignored, and rewritten below
             result = _result_from_json(entry["result"])
             for dep, digest in entry.get("dependencies", {}).items():
                 with open(dep, "rb") as dfh:
@@ -144,8 +197,10 @@ class Cache:
             os.makedirs(os.path.dirname(target), exist_ok=True)
             self._write_gitignore()
             fd, tmp = tempfile.mkstemp(dir=os.path.dirname(target), prefix=".tmp-", suffix=".json")
+            body = {"result": _result_to_json(result), "dependencies": deps}
+            body = json.loads(json.dumps(body))  # what a reader will parse: sign exactly that
             with os.fdopen(fd, "w", encoding="utf-8") as fh:
-                json.dump({"result": _result_to_json(result), "dependencies": deps}, fh)
+                json.dump({**body, "signature": _sign(body)}, fh)
             os.replace(tmp, target)
         except OSError:
             pass  # a read-only tree or a full disk: the run is still correct, only slower

@@ -133,3 +133,55 @@ def test_a_changed_sibling_helper_invalidates_the_cached_result(tmp_path):
     second = runner.run([str(model)], options, 1, cache)
     assert cache.hits == 0
     assert [f.rule for f in second[0].findings] in (["nonconvex-penalty"], ["nonconvex-objective"])
+
+
+def test_a_planted_or_foreign_entry_is_not_trusted(tmp_path):
+    """A clean result written into the cache by hand (or committed to the repository), or signed on
+    another machine, must not hide the findings of the file it claims to describe."""
+    tree = _tree(tmp_path)
+    files = _files(tree)
+    options = Options()
+    first = runner.run(files, options, 1, runner.Cache(str(tmp_path), options))
+    expected = [f.to_json() for r in first for f in r.findings]
+    assert expected
+    forged = 0
+    for e in sorted((tmp_path / ".optlint_cache").rglob("*.json")):  # findings removed, signature kept
+        entry = json.loads(e.read_text())
+        if entry["result"]["findings"]:
+            entry["result"]["findings"] = []
+            e.write_text(json.dumps(entry))
+            forged += 1
+    assert forged
+    cache = runner.Cache(str(tmp_path), options)
+    again = runner.run(files, options, 1, cache)
+    assert cache.hits == len(files) - forged and [f.to_json() for r in again for f in r.findings] == expected
+
+    own_key = runner.signing_key()
+    try:  # entries signed with another machine's key, findings removed
+        runner._KEY = b"another machine's key, 32 bytes!"
+        for e in sorted((tmp_path / ".optlint_cache").rglob("*.json")):
+            entry = json.loads(e.read_text())
+            body = {"result": dict(entry["result"], findings=[]), "dependencies": entry["dependencies"]}
+            e.write_text(json.dumps({**body, "signature": runner._sign(body)}))
+    finally:
+        runner._KEY = own_key
+    cache = runner.Cache(str(tmp_path), options)
+    again = runner.run(files, options, 1, cache)
+    assert cache.hits == 0 and [f.to_json() for r in again for f in r.findings] == expected
+    cache = runner.Cache(str(tmp_path), options)  # and the rewritten entries are trusted again
+    runner.run(files, options, 1, cache)
+    assert cache.hits == len(files)
+
+
+def test_the_signing_key_is_private_and_kept(tmp_path, monkeypatch):
+    import stat
+
+    monkeypatch.setenv("XDG_CACHE_HOME", str(tmp_path / "xdg"))
+    monkeypatch.setattr(runner, "_KEY", None)
+    key = runner.signing_key()
+    path = tmp_path / "xdg" / "optlint" / "key"
+    assert path.read_bytes() == key and len(key) == 32
+    assert stat.S_IMODE(path.stat().st_mode) == 0o600
+    monkeypatch.setattr(runner, "_KEY", None)
+    assert runner.signing_key() == key  # the next run reads the same key
+    assert not list(path.parent.glob(".key-*"))
