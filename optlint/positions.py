@@ -109,26 +109,33 @@ class Positions(Mapping):
                 return found
         return self._load().get(node)
 
-    def _generate(self, stmt: cst.CSTNode, line: int, indent: str) -> None:
+    def _generate(self, stmt: cst.CSTNode, line: int, indent: str) -> int | None:
+        """Generate ``stmt``'s code and keep its nodes' ranges; returns how far the lines had to
+        be moved afterwards (0: ``_lines_before`` was right), None when nothing was kept."""
         self._generated.add(id(stmt))
         if PositionProvidingCodegenState is None:
-            return
+            return None
         provider = PositionProvider()
         provider._computed = {}
         state = PositionProvidingCodegenState(default_indent=self._module.default_indent,
                                               default_newline=self._module.default_newline,
                                               provider=provider)
         state.indent_tokens = [indent] if indent else []
+        state.line = line - _lines_before(stmt)  # where the statement's own code begins
         stmt._codegen(state)
         ranges = provider._computed
         anchor = _anchor(stmt)
         if anchor not in ranges:
-            return
-        shift = line - ranges[anchor].start.line
+            return None
+        shift = line - ranges[anchor].start.line  # 0 unless a leading line spans two (never seen)
         local = self._local
+        if not shift:
+            local.update(ranges)
+            return 0
         for n, r in ranges.items():
-            local[n] = r if not shift else CodeRange(CodePosition(r.start.line + shift, r.start.column),
-                                                     CodePosition(r.end.line + shift, r.end.column))
+            local[n] = CodeRange(CodePosition(r.start.line + shift, r.start.column),
+                                 CodePosition(r.end.line + shift, r.end.column))
+        return shift
 
 
 class _Mismatch(Exception):
@@ -142,6 +149,21 @@ def _anchor(stmt: cst.CSTNode) -> cst.CSTNode:
     if isinstance(stmt, (cst.FunctionDef, cst.ClassDef)):
         return stmt.name  # on the `def`/`class` line, where ast and libcst start a definition
     return stmt
+
+
+def _lines_before(stmt: cst.CSTNode) -> int:
+    """Lines a statement's code holds before its anchor's line: its leading blank and comment
+    lines (one line each), and for a decorated definition its decorators."""
+    n = len(getattr(stmt, "leading_lines", ()))
+    for dec in getattr(stmt, "decorators", ()):
+        n += len(dec.leading_lines) + 1 + _newlines(dec.decorator)
+    if getattr(stmt, "decorators", ()):
+        n += len(stmt.lines_after_decorators)
+    return n
+
+
+def _newlines(node: cst.CSTNode) -> int:
+    return cst.Module(body=[]).code_for_node(node).count("\n")
 
 
 def _indent(lines: list[str], lineno: int) -> str:

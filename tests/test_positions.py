@@ -109,6 +109,7 @@ def _check(text: str) -> int:
             continue
         fresh = Positions(module, text, tree)
         fresh._starts = index
+        assert fresh._generate(node, *where) == 0  # its code generated at the right lines at once
         for inner in _nodes(node):
             if inner not in full:
                 continue  # a node libcst's code generation never places (unused whitespace)
