@@ -179,7 +179,17 @@ def _check_data(path: str, data: bytes, options: Options) -> FileResult:
 
 
 def _analyse(path, source, dialects, options) -> FileResult:
-    """Parse, recognise, run the rules and the policy: in a thread with a deep stack (nesting.py)."""
+    """Parse, recognise, run the rules and the policy: in a thread with a deep stack (nesting.py).
+    Warnings of the libraries used inside (numpy's overflow in a witness search at 1e308, sympy's
+    deprecations) are not the user's business: they are silenced here, never printed."""
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        return _analyse_quietly(path, source, dialects, options)
+
+
+def _analyse_quietly(path, source, dialects, options) -> FileResult:
     findings, models = _parse_and_recognise(path, source, dialects, options)
     dialect_of: dict[int, str] = {}
     if models:

@@ -40,3 +40,31 @@ def test_a_thousand_by_thousand_literal_matrix_is_checked_quickly(tmp_path):
     lines = path.read_text().count("\n")
     assert sorted((f.site.line, f.rule) for f in findings) == [(lines, "nonconvex-objective"),
                                                                (lines, "strict-inequality")]
+
+
+OVERFLOWING = '''\
+"""Ballast trim with gains pasted in at the edge of double precision (a units mix-up)."""
+import cvxpy as cp
+import numpy as np
+
+x = cp.Variable(3)
+A = np.array([[1e308, 2e308, 1.0], [1e300, -1e308, 3.0], [0.0, 1.0, 1e-320]])
+big = 10**10**10
+cost = cp.sum_squares(A @ x) - 1e308 * cp.norm(x) + big * cp.sum(x) - cp.quad_form(x, A * 1e300)
+prob = cp.Problem(cp.Minimize(cost), [x >= -1e308, cp.square(x[0]) == 1e308])
+'''
+
+
+def test_numbers_that_overflow_doubles_give_findings_and_no_warnings(tmp_path):
+    """The witness search evaluates at points where these overflow: numpy's RuntimeWarnings must
+    not reach the user's terminal (they used to, three of them)."""
+    from conftest import run_cli
+
+    (tmp_path / "trim.py").write_text(OVERFLOWING)
+    proc = run_cli("check", "--no-config", "--no-cache", "--format", "json", "trim.py", cwd=tmp_path,
+                   env={"PYTHONWARNINGS": "default"})
+    import json
+
+    found = sorted((f["rule"], f["line"]) for f in json.loads(proc.stdout)["findings"])
+    assert proc.returncode == 1 and found == [("nonaffine-equality", 9), ("nonconvex-objective", 9)]
+    assert "Warning" not in proc.stderr and "Traceback" not in proc.stderr, proc.stderr
