@@ -88,7 +88,7 @@ CONSTANT_SIGN_CALLS = {
 def projection_facts(node) -> list[tuple[str, str]]:
     """(name, sign) after an in-place projection statement: ``lam.clamp_(min=0)``, ``lam.relu_()``,
     ``np.maximum(lam, 0, out=lam)``, ``lam.data.clamp_(min=0)``."""
-    from optlint.dialects.lagrangian import projection, target_text
+    from optlint.projections import projection, target_text
 
     if not isinstance(node, cst.Call) or not isinstance(node.func, cst.Attribute):
         return []
@@ -106,7 +106,7 @@ def projection_facts(node) -> list[tuple[str, str]]:
 
 def assigned_projection(target, value) -> list[tuple[str, str]]:
     """(name, sign) after ``lam = np.maximum(0, ...)`` or ``lam = lam.clamp(min=0)``."""
-    from optlint.dialects.lagrangian import projection
+    from optlint.projections import projection
 
     found = projection(value) if isinstance(value, cst.Call) else None
     name = _dotted(target)

@@ -31,6 +31,7 @@ from optlint.interp import (NONE, Alt, BoundFunc, ConsVal, DictVal, FuncVal, Glo
                             ListVal, Opaque, PartialVal)
 from optlint.ir import Model
 from optlint.dialects.registry import run_dialect
+from optlint.walk import walk
 
 NAME = "algebraic"
 LIBRARY = "pyomo"
@@ -362,26 +363,20 @@ def rebounded_names(module: cst.Module) -> frozenset | None:
             return node.attr.value
         return None
 
-    class _V(cst.CSTVisitor):
-        def visit_Call(self, call):
-            nonlocal unknown
-            f = call.func
+    def note(name) -> None:
+        nonlocal unknown
+        if name is None:
+            unknown = True
+        else:
+            out.add(name)
+
+    for node in walk(module):  # a plain read of the tree (optlint/walk.py), not a libcst visitor
+        if isinstance(node, cst.Call):
+            f = node.func
             if isinstance(f, cst.Attribute) and f.attr.value in _REBOUND_METHODS:
-                name = owner(f.value)
-                if name is None:
-                    unknown = True
-                else:
-                    out.add(name)
-
-        def visit_AssignTarget(self, t):
-            nonlocal unknown
-            target = t.target
+                note(owner(f.value))
+        elif isinstance(node, cst.AssignTarget):
+            target = node.target
             if isinstance(target, cst.Attribute) and target.attr.value in _REBOUND_ATTRIBUTES:
-                name = owner(target.value)
-                if name is None:
-                    unknown = True
-                else:
-                    out.add(name)
-
-    module.visit(_V())
+                note(owner(target.value))
     return None if unknown else frozenset(out)

@@ -24,7 +24,6 @@ must satisfy e·o·M >= 0.
 
 from __future__ import annotations
 
-import dataclasses
 
 import libcst as cst
 import sympy
@@ -32,120 +31,22 @@ from sympy.core.function import AppliedUndef
 
 from optlint.ir import Model, MultiplierStep, MultiplierUse, Site
 from optlint.names import QualifiedNames, dotted
+from optlint.projections import (node_text as _text, callee_tail as _tail, is_zero as _is_zero, keyword_arg as _kw,
+                                 positional_args as _positional, TRANSPARENT_ATTRS as _TRANSPARENT_ATTRS,
+                                 TRANSPARENT_METHODS as _TRANSPARENT_METHODS, LIBRARIES as _LIBRARIES, projection,
+                                 target_text)
+from optlint.walk import children
 
 NAME = "lagrangian"
 
-_TRANSPARENT_ATTRS = {"value", "data", "T", "real"}
-_TRANSPARENT_METHODS = {"detach", "item", "numpy", "cpu", "clone", "copy", "flatten", "ravel", "squeeze", "tolist"}
 _PRODUCT_CALLS = {"dot", "inner", "vdot", "matmul", "multiply", "mul"}
 _REDUCTIONS = {"sum", "mean"}
 _CHECK_REDUCTIONS = {"max", "amax", "min", "amin", "all", "any", "sum", "mean", "norm"}
-_MAX_CALLS = {"maximum", "fmax", "max"}
-_MIN_CALLS = {"minimum", "fmin", "min"}
 _OPTIMISERS = {"SGD", "Adam", "AdamW", "RMSprop", "Adagrad", "Adadelta", "Adamax", "NAdam", "RAdam", "LBFGS", "ASGD",
                "Rprop", "SparseAdam"}
 _SIGN_KWARGS = {"nonneg": 1, "pos": 1, "nonpos": -1, "neg": -1}
 MAX_RESOLVE_DEPTH = 3
 _PRIMES = (2, 3, 5, 7, 11, 13, 17, 19, 23, 29, 31)
-_LIBRARIES = {"np", "numpy", "torch", "cp", "cvxpy", "jnp", "jax.numpy"}
-
-
-def _text(node: cst.CSTNode) -> str:
-    return " ".join(cst.Module([]).code_for_node(node).split())
-
-
-def _tail(node) -> str | None:
-    """Last component of a dotted callee: ``np.maximum`` -> ``maximum``."""
-    if isinstance(node, cst.Attribute):
-        return node.attr.value
-    return node.value if isinstance(node, cst.Name) else None
-
-
-def _is_zero(node) -> bool:
-    if isinstance(node, cst.Integer):
-        return node.value.replace("_", "") in ("0", "0x0", "0o0", "0b0")
-    if isinstance(node, cst.Float):
-        try:
-            return float(node.value.replace("_", "")) == 0.0
-        except ValueError:
-            return False
-    if isinstance(node, cst.UnaryOperation) and isinstance(node.operator, (cst.Minus, cst.Plus)):
-        return _is_zero(node.expression)
-    return False
-
-
-def _is_none(node) -> bool:
-    return isinstance(node, cst.Name) and node.value == "None"
-
-
-def _kw(call: cst.Call, name: str):
-    for a in call.args:
-        if a.keyword is not None and a.keyword.value == name:
-            return a.value
-    return None
-
-
-def _positional(call: cst.Call) -> list:
-    return [a.value for a in call.args if a.keyword is None and not a.star]
-
-
-def target_text(node) -> str | None:
-    """Normalised text of an assignment target or a multiplier factor: ``lam.value``, ``lam.data``,
-    ``lam[:]`` and ``lam.T`` all name ``lam``."""
-    while True:
-        if isinstance(node, cst.Attribute) and node.attr.value in _TRANSPARENT_ATTRS:
-            node = node.value
-        elif (isinstance(node, cst.Subscript) and len(node.slice) == 1
-              and isinstance(node.slice[0].slice, cst.Index) and isinstance(node.slice[0].slice.value, cst.Ellipsis)):
-            node = node.value
-        elif (isinstance(node, cst.Subscript) and len(node.slice) == 1 and isinstance(node.slice[0].slice, cst.Slice)
-              and all(getattr(node.slice[0].slice, p) is None for p in ("lower", "upper", "step"))):
-            node = node.value
-        elif (isinstance(node, cst.Call) and isinstance(node.func, cst.Attribute) and not node.args
-              and node.func.attr.value in _TRANSPARENT_METHODS):
-            node = node.func.value
-        else:
-            break
-    if isinstance(node, (cst.Name, cst.Attribute)):
-        return dotted(node)
-    if isinstance(node, cst.Subscript) and isinstance(node.value, (cst.Name, cst.Attribute)):
-        return _text(node)
-    return None
-
-
-def projection(node) -> tuple[int, cst.CSTNode] | None:
-    """(side, inner) when ``node`` projects ``inner`` onto [0, inf) (side +1) or (-inf, 0] (side -1)."""
-    if not isinstance(node, cst.Call):
-        return None
-    tail = _tail(node.func)
-    pos = _positional(node)
-    method_base = node.func.value if isinstance(node.func, cst.Attribute) else None
-    if tail in _MAX_CALLS | _MIN_CALLS and len(pos) == 2:
-        side = 1 if tail in _MAX_CALLS else -1
-        if _is_zero(pos[0]):
-            return side, pos[1]
-        if _is_zero(pos[1]):
-            return side, pos[0]
-        return None
-    if tail in ("relu", "relu_"):
-        if pos:
-            return 1, pos[0]
-        return (1, method_base) if method_base is not None else None
-    if tail in ("clamp", "clip", "clamp_", "clip_"):
-        # torch.clamp(X, min=0) / X.clamp(min=0) / np.clip(X, 0, None) / X.clip(0)
-        if method_base is not None and dotted(method_base) not in _LIBRARIES:
-            inner, rest = method_base, pos
-        elif pos:
-            inner, rest = pos[0], pos[1:]
-        else:
-            return None
-        lo = _kw(node, "min") or _kw(node, "a_min") or (rest[0] if rest else None)
-        hi = _kw(node, "max") or _kw(node, "a_max") or (rest[1] if len(rest) > 1 else None)
-        if lo is not None and _is_zero(lo) and (hi is None or _is_none(hi)):
-            return 1, inner
-        if hi is not None and _is_zero(hi) and (lo is None or _is_none(lo)):
-            return -1, inner
-    return None
 
 
 # ---------------------------------------------------------------------------------------------
@@ -513,7 +414,7 @@ class _Scan:
                 continue
             elif isinstance(n, cst.Comparison) and contexts[-1] is not None:
                 self.comparison(n, contexts[-1], scope)
-            stack.extend((c, False) for c in reversed(_children(n)))
+            stack.extend((c, False) for c in reversed(children(n)))
 
     def comparison(self, cmp: cst.Comparison, context: int, scope) -> None:
         left = cmp.left
@@ -631,40 +532,8 @@ def _collect_names(node) -> set[str]:
             t = target_text(n)
             if t:
                 out.add(t)
-        stack.extend(_children(n))
+        stack.extend(children(n))
     return out
-
-
-_NOT_WALKED = (cst.SimpleWhitespace, cst.ParenthesizedWhitespace, cst.Newline, cst.Comment, cst.EmptyLine,
-               cst.TrailingWhitespace, cst.LeftParen, cst.RightParen, cst.LeftSquareBracket, cst.RightSquareBracket,
-               cst.LeftCurlyBrace, cst.RightCurlyBrace, cst.Comma, cst.Dot, cst.Colon, cst.AssignEqual,
-               cst.Semicolon, cst.BaseBinaryOp, cst.BaseUnaryOp, cst.BaseCompOp, cst.BaseBooleanOp, cst.BaseAugOp)
-_FIELDS: dict[type, tuple[str, ...]] = {}
-
-
-def _children(node) -> list:
-    """Child nodes of interest (no whitespace, brackets or operator tokens), in source order."""
-    names = _FIELDS.get(type(node))
-    if names is None:
-        names = _FIELDS[type(node)] = tuple(f.name for f in dataclasses.fields(node))
-    out = []
-    for name in names:
-        v = getattr(node, name)
-        if isinstance(v, (list, tuple)):
-            out.extend(x for x in v if _walked(type(x)))
-        elif _walked(type(v)):
-            out.append(v)
-    return out
-
-
-_WALKED: dict[type, bool] = {}
-
-
-def _walked(t: type) -> bool:
-    hit = _WALKED.get(t)
-    if hit is None:
-        hit = _WALKED[t] = issubclass(t, cst.CSTNode) and not issubclass(t, _NOT_WALKED)
-    return hit
 
 
 def _terms(op, sign) -> list[tuple[int, cst.CSTNode]]:
@@ -1042,7 +911,7 @@ def ascended_names(module: cst.Module) -> frozenset:
             if isinstance(flag, cst.Name) and flag.value == "True" and any(
                     q.startswith("torch.optim.") for q in scan.qualified(node.func)):
                 out.update(_optimiser_params(node, scan, scan.root, 0))
-        stack.extend(_children(node))
+        stack.extend(children(node))
     return frozenset(out)
 
 
