@@ -9,6 +9,8 @@ from __future__ import annotations
 
 import time
 
+import pytest
+
 from optlint.elide import PLACEHOLDER, elide_large_literals
 from optlint.engine import check_file
 
@@ -68,3 +70,44 @@ def test_numbers_that_overflow_doubles_give_findings_and_no_warnings(tmp_path):
     found = sorted((f["rule"], f["line"]) for f in json.loads(proc.stdout)["findings"])
     assert proc.returncode == 1 and found == [("nonaffine-equality", 9), ("nonconvex-objective", 9)]
     assert "Warning" not in proc.stderr and "Traceback" not in proc.stderr, proc.stderr
+
+
+# Exponents typed as 10**10: the witness search once built a dense polynomial of that degree
+# (SILO: 7.5 GB in 60 s) and put data values into the power exactly, 2**(10**10) (CHURN: 4 GB);
+# both were found by the mutation fuzzer, which ran the machine out of memory.
+SILO = '''\
+"""Silo fill levels with an exponent typed as 10**10 instead of 10 (a fat-finger in a sweep)."""
+import cvxpy as cp
+
+fill = cp.Variable(3, nonneg=True) ** 10**10
+cons = [cp.sqrt(cp.sum(fill) + 1) <= 4]
+prob = cp.Problem(cp.Minimize(cp.sum(fill)), cons)
+'''
+
+CHURN = '''\
+"""Churn scores with a typo'd sharpening exponent."""
+import numpy as np
+from scipy.optimize import minimize
+
+
+def loss(w, X, y, l2=1e-2):
+    z = (X @ w) ** 10**10
+    return np.maximum(np.mean(np.logaddexp(0.0, y * z)), 0) + l2 * np.dot(w, w)
+
+
+def fit(X, y):
+    return minimize(loss, np.zeros(X.shape[1]), args=(X, y), method="L-BFGS-B").x
+'''
+
+
+@pytest.mark.parametrize("name, text, expected", [
+    ("silo.py", SILO, [("nonconvex-inequality", 5)]),
+    ("churn.py", CHURN, [("nonconvex-objective", 12)]),
+])
+def test_huge_exponents_are_judged_without_exhausting_memory(tmp_path, name, text, expected):
+    path = tmp_path / name
+    path.write_text(text)
+    start = time.perf_counter()
+    findings = check_file(str(path)).findings
+    assert time.perf_counter() - start < 30  # it was minutes and gigabytes; about a second now
+    assert sorted((f.rule, f.site.line) for f in findings) == expected

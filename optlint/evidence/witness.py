@@ -47,6 +47,8 @@ def _dyadic(v: float, step: float = 8.0) -> float:
 _FINE = 1024.0  # roots are placed on a grid of 2^-10, so a point beside a cusp is exact and short
 _LINE_STEPS = (0.0,) + tuple(sgn * 2.0 ** j for j in range(-10, 8) for sgn in (1.0, -1.0))
 _MAX_LINES = 16
+_MAX_POWER = 1024
+_MAX_ROOT_DEGREE = 8  # a piece with a higher power is not looked at for a root (it is not affine anyway)
 
 
 def _affine_root(node, index) -> tuple[int, float] | None:
@@ -62,6 +64,8 @@ def _affine_root(node, index) -> tuple[int, float] | None:
         return index[x], _dyadic(-const / coeffs[x], _FINE)
     if not node.is_polynomial(*free):
         return None
+    if any(n.is_Pow and n.exp.is_Number and abs(n.exp) > _MAX_ROOT_DEGREE for n in preorder(node)):
+        return None  # Poly is dense: x**10**10 would ask for 10**10 coefficients (a fuzzed model ran out of memory)
     try:
         poly = sympy.Poly(node, *sorted(free, key=str))
     except sympy.PolynomialError:
@@ -287,14 +291,22 @@ def find(expr, model, facts, kind: str, tested: str, elementwise: bool = False) 
         candidates = [(e, f"entry {k} (flattened) of {tested}") for k, e in enumerate(sc.entries)]
     else:
         candidates = [(sc.expr, tested)]
+    candidates = [(g, what) for g, what in candidates if not _huge_power(g)]
     rng = numpy.random.default_rng(SEED)
-    for values in _data_trials(sc, rng):
+    for values in _data_trials(sc, rng) if candidates else ():
         subs = {d: sympy.Float(v) if not float(v).is_integer() else sympy.Integer(int(v)) for d, v in values.items()}
         for g, what in candidates:
             found = _search(substitute(g, subs) if subs else g, sc, kind)
             if found is not None:
                 return _evidence(sc, kind, what, values, *found)
     return None
+
+
+def _huge_power(expr) -> bool:
+    """A power with an exponent beyond ``_MAX_POWER``: in doubles it is 0, 1 or inf almost
+    everywhere, so no witness is sought; and data values put into it exactly (2**(10**10)) would
+    cost gigabytes (a fuzzed model ran out of memory there)."""
+    return any(n.is_Pow and n.exp.is_Number and abs(n.exp) > _MAX_POWER for n in preorder(expr))
 
 
 def _search(f, sc: Scalarised, kind: str):
