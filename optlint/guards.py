@@ -23,7 +23,9 @@ _NEGATION = {"nonnegative": "negative", "positive": "nonpositive", "nonpositive"
 
 
 def _is_zero(node) -> bool:
-    return isinstance(node, (cst.Integer, cst.Float)) and float(node.value.replace("_", "")) == 0.0
+    from optlint.projections import is_zero
+
+    return isinstance(node, (cst.Integer, cst.Float)) and is_zero(node)  # 0o377 is no float()
 
 
 def facts(test, holds: bool = True) -> list[tuple[str, str]]:

@@ -1429,6 +1429,14 @@ class Interpreter:
 
     def to_expr(self, value, node) -> sympy.Basic | None:
         """The sympy form of a value, or None where the value is not a number or model term."""
+        return self._to_expr(value, node, frozenset())
+
+    def _to_expr(self, value, node, inside: frozenset) -> sympy.Basic | None:
+        # ``inside``: ids of the containers being converted, so that a list holding itself
+        # (``a = []; a.append(a)``, in the standard library's own tests) is not a number, not a
+        # RecursionError
+        if id(value) in inside:
+            return None
         if isinstance(value, sympy.Basic):
             return value
         if isinstance(value, bool):
@@ -1440,7 +1448,7 @@ class Interpreter:
         if isinstance(value, Opaque):
             return data(value.text, **self.assumed(value.text)) if value is not NONE else None
         if isinstance(value, ListVal):
-            exprs = [self.to_expr(v, None) for v in value.items]
+            exprs = [self._to_expr(v, None, inside | {id(value)}) for v in value.items]
             if not exprs or any(e is None for e in exprs):
                 return None
             if value.from_comprehension:
@@ -1450,7 +1458,7 @@ class Interpreter:
             return data(value.qualname)
         if isinstance(value, BoundMethod) and not isinstance(value.base, (ListVal, DictVal)):
             # used as a number, `obj.attr` is an attribute, not a method: of data, it is data (A.T)
-            base = self.to_expr(value.base, None)
+            base = self._to_expr(value.base, None, inside | {id(value)})
             if base is not None and not self.involves(base):
                 text = f"{value.base_text}.{value.name}"
                 return data(text, **self.assumed(text))

@@ -32,7 +32,10 @@ def callee_tail(node) -> str | None:
 
 def is_zero(node) -> bool:
     if isinstance(node, cst.Integer):
-        return node.value.replace("_", "") in ("0", "0x0", "0o0", "0b0")
+        try:
+            return int(node.value.replace("_", ""), 0) == 0  # 0, 00, 0x0, 0o000, 0b0
+        except ValueError:
+            return False
     if isinstance(node, cst.Float):
         try:
             return float(node.value.replace("_", "")) == 0.0

@@ -111,3 +111,41 @@ def test_huge_exponents_are_judged_without_exhausting_memory(tmp_path, name, tex
     findings = check_file(str(path)).findings
     assert time.perf_counter() - start < 30  # it was minutes and gigabytes; about a second now
     assert sorted((f.rule, f.site.line) for f in findings) == expected
+
+
+# Found by the forced sweep of the standard library (re/_parser.py, zipimport.py: octal literals
+# in guards; test_copy.py and eight more: lists that hold themselves); each was an internal-error.
+OCTAL_GUARD = '''\
+"""Kiln firing schedule: the guard writes zero in octal, as the controller's docs do."""
+import cvxpy as cp
+
+PERMISSIONS = 0o644
+
+
+def schedule(weight):
+    if weight < 0o0:
+        raise ValueError("weight must be nonnegative")
+    heat = cp.Variable(4)
+    return cp.Problem(cp.Minimize(weight * cp.sum_squares(heat)), [heat >= 0o00])
+'''
+
+SELF_HOLDING_LIST = '''\
+"""Audit trail that holds itself (a bookkeeping slip), next to a small transport model."""
+import cvxpy as cp
+
+trail = []
+trail.append(trail)
+ship = cp.Variable(3, nonneg=True)
+cost = cp.sum(ship) + trail[0]
+prob = cp.Problem(cp.Minimize(cost), [cp.sum(ship) >= 5, ship <= trail])
+'''
+
+
+@pytest.mark.parametrize("name, text, expected", [
+    ("kiln.py", OCTAL_GUARD, []),  # `weight < 0o0` raising guards the weight's sign
+    ("audit.py", SELF_HOLDING_LIST, [("unknown-curvature", 8)]),
+])
+def test_octal_zeros_and_self_holding_lists_are_read_not_crashed_on(tmp_path, name, text, expected):
+    path = tmp_path / name
+    path.write_text(text)
+    assert sorted((f.rule, f.site.line) for f in check_file(str(path)).findings) == expected
