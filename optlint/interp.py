@@ -45,6 +45,7 @@ from optlint.names import QualifiedNames
 from optlint.names import dotted as _dotted
 from optlint.lift import DataSymbol, data, involves, is_expr, number_from_literal, safe_pow
 from optlint.positions import positions
+from optlint.lift import maximum as _maximum, minimum as _minimum
 
 # The run's configuration (engine.Options) while a file is recognised; set by the engine.
 OPTIONS: ContextVar = ContextVar("optlint_options", default=None)
@@ -1282,7 +1283,7 @@ class Interpreter:
             if exprs and all(e is not None for e in exprs):
                 if len(args) == 1 and isinstance(args[0], ListVal) and args[0].from_comprehension:
                     return (F.vmax if name == "max" else F.vmin)(exprs[0])
-                return (sympy.Max if name == "max" else sympy.Min)(*exprs)
+                return (_maximum if name == "max" else _minimum)(*exprs)
         if name in ("list", "tuple") and args:
             return ListVal(list(self.iterate(args[0])))
         if name in ("list", "tuple") and not args:

@@ -85,3 +85,21 @@ def preorder(expr):
         yield node
         if isinstance(node, sympy.Basic):
             stack.extend(reversed(node.args))
+
+
+def maximum(*args) -> sympy.Basic:
+    """``sympy.Max(*args)``; where sympy refuses an argument as not comparable (a number it
+    cannot order, such as an atom applied to constants: ``60.0 - matmul(6.5, 4.0)``), the same
+    maximum unevaluated, instead of a ValueError out of the recogniser (found by the fuzzer)."""
+    try:
+        return sympy.Max(*args)
+    except (ValueError, TypeError):
+        return sympy.Max(*args, evaluate=False)
+
+
+def minimum(*args) -> sympy.Basic:
+    """``sympy.Min(*args)``, unevaluated where sympy refuses an argument (see ``maximum``)."""
+    try:
+        return sympy.Min(*args)
+    except (ValueError, TypeError):
+        return sympy.Min(*args, evaluate=False)

@@ -141,11 +141,28 @@ prob = cp.Problem(cp.Minimize(cost), [cp.sum(ship) >= 5, ship <= trail])
 '''
 
 
+# Found by the mutation fuzzer: max() of a number sympy cannot order (an atom of constants).
+INCOMPARABLE_MAX = '''\
+"""Market stall pricing: demand written with a matrix product of two plain numbers."""
+import numpy as np
+from scipy.optimize import minimize
+
+
+def revenue(p, base=60.0, slope=6.5):
+    demand = max(base - np.matmul(slope, 4.0), 0.0)
+    return -(p[0] * demand)
+
+
+best = minimize(revenue, np.array([1.0]))
+'''
+
+
 @pytest.mark.parametrize("name, text, expected", [
+    ("stall.py", INCOMPARABLE_MAX, []),
     ("kiln.py", OCTAL_GUARD, []),  # `weight < 0o0` raising guards the weight's sign
     ("audit.py", SELF_HOLDING_LIST, [("unknown-curvature", 8)]),
 ])
-def test_octal_zeros_and_self_holding_lists_are_read_not_crashed_on(tmp_path, name, text, expected):
+def test_odd_values_are_read_not_crashed_on(tmp_path, name, text, expected):
     path = tmp_path / name
     path.write_text(text)
     assert sorted((f.rule, f.site.line) for f in check_file(str(path)).findings) == expected

@@ -23,6 +23,7 @@ from optlint.dialects.registry import Registry
 from optlint.interp import NONE, DialectHooks, GlobalRef, Interpreter, ListVal, Opaque
 from optlint.ir import Declaration
 from optlint.lift import preorder
+from optlint.lift import maximum as _maximum, minimum as _minimum
 
 _INF_NAMES = {"numpy.inf", "numpy.Inf", "numpy.infty", "numpy.PINF", "math.inf", "casadi.inf"}
 SIGNS = ("positive", "nonnegative", "negative", "nonpositive")
@@ -157,9 +158,9 @@ def _dot(a, b):
 def clip(x, lo, hi):
     out = x
     if lo is not None:
-        out = sympy.Max(out, lo)
+        out = _maximum(out, lo)
     if hi is not None:
-        out = sympy.Min(out, hi)
+        out = _minimum(out, hi)
     return out
 
 
@@ -236,10 +237,10 @@ NUMPY = {
     "fabs": lambda e, kw, raw: sympy.Abs(e[0]),
     "square": lambda e, kw, raw: sympy.Pow(e[0], 2),
     "power": lambda e, kw, raw: sympy.Pow(e[0], e[1]),
-    "maximum": lambda e, kw, raw: sympy.Max(e[0], e[1]),
-    "minimum": lambda e, kw, raw: sympy.Min(e[0], e[1]),
-    "fmax": lambda e, kw, raw: sympy.Max(e[0], e[1]),
-    "fmin": lambda e, kw, raw: sympy.Min(e[0], e[1]),
+    "maximum": lambda e, kw, raw: _maximum(e[0], e[1]),
+    "minimum": lambda e, kw, raw: _minimum(e[0], e[1]),
+    "fmax": lambda e, kw, raw: _maximum(e[0], e[1]),
+    "fmin": lambda e, kw, raw: _minimum(e[0], e[1]),
     "max": lambda e, kw, raw: F.vmax(e[0]),
     "amax": lambda e, kw, raw: F.vmax(e[0]),
     "min": lambda e, kw, raw: F.vmin(e[0]),

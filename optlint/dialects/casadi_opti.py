@@ -29,6 +29,7 @@ from optlint.interp import NONE, ConsVal, InstanceVal, Interpreter, ListVal, Opa
 from optlint.ir import Model
 from optlint.lift import data
 from optlint.dialects.registry import run_dialect
+from optlint.lift import maximum as _maximum, minimum as _minimum
 
 NAME = "casadi"
 LIBRARY = "casadi"
@@ -62,8 +63,8 @@ CASADI = {
     "sin": lambda e, kw, raw: sympy.sin(e[0]),
     "cos": lambda e, kw, raw: sympy.cos(e[0]),
     "fabs": lambda e, kw, raw: sympy.Abs(e[0]),
-    "fmax": lambda e, kw, raw: sympy.Max(e[0], e[1]),
-    "fmin": lambda e, kw, raw: sympy.Min(e[0], e[1]),
+    "fmax": lambda e, kw, raw: _maximum(e[0], e[1]),
+    "fmin": lambda e, kw, raw: _minimum(e[0], e[1]),
     "mmax": lambda e, kw, raw: F.vmax(e[0]),
     "mmin": lambda e, kw, raw: F.vmin(e[0]),
     "mtimes": _mtimes,

@@ -26,6 +26,7 @@ from optlint.dialects.registry import Registry, run_dialect
 from optlint.interp import ConsVal, DialectHooks, Interpreter, ListVal, ObjVal, Opaque, ProbVal
 from optlint.ir import Declaration, Model, Notice, Variant, WrittenOp
 from optlint.lift import data, safe_pow
+from optlint.lift import maximum as _maximum, minimum as _minimum
 
 NAME = "dsl"
 LIBRARY = "cvxpy"
@@ -477,8 +478,8 @@ _BUILDERS = {
     "inv_pos": lambda h, e, kw, raw: F.inv_pos(e[0]),
     "pos": lambda h, e, kw, raw: F.pos(e[0]),
     "neg": lambda h, e, kw, raw: F.neg(e[0]),
-    "maximum": lambda h, e, kw, raw: sympy.Max(*e),
-    "minimum": lambda h, e, kw, raw: sympy.Min(*e),
+    "maximum": lambda h, e, kw, raw: _maximum(*e),
+    "minimum": lambda h, e, kw, raw: _minimum(*e),
     "max": lambda h, e, kw, raw: F.vmax(e[0]),
     "min": lambda h, e, kw, raw: F.vmin(e[0]),
     "quad_form": _quad_form,

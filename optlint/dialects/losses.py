@@ -29,6 +29,7 @@ from optlint.dialects.arrays import METHODS, NUMPY, ArrayHooks, DialectRegistry,
 from optlint.interp import NONE, BoundFunc, FuncVal, InstanceVal, Interpreter, Opaque, PartialVal
 from optlint.ir import Model
 from optlint.dialects.registry import run_dialect
+from optlint.lift import maximum as _maximum, minimum as _minimum
 
 NAME = "losses"
 
@@ -117,7 +118,7 @@ def _max(e, kw, raw):
     if len(e) == 1:
         return F.vmax(e[0])
     if isinstance(raw[1], sympy.Basic) and len(raw) == 2 and not isinstance(raw[1], sympy.Integer):
-        return sympy.Max(e[0], e[1])  # torch.max(a, b): elementwise
+        return _maximum(e[0], e[1])  # torch.max(a, b): elementwise
     return None  # torch.max(x, dim): values and indices
 
 
@@ -138,8 +139,8 @@ TORCH = {
     "linalg.norm": lambda e, kw, raw: _tnorm([e[0], kw.get("ord", sympy.Integer(2))], {}, raw),
     "linalg.vector_norm": lambda e, kw, raw: _tnorm([e[0], kw.get("ord", sympy.Integer(2))], {}, raw),
     "logsumexp": lambda e, kw, raw: F.log_sum_exp(e[0]),
-    "maximum": lambda e, kw, raw: sympy.Max(e[0], e[1]),
-    "minimum": lambda e, kw, raw: sympy.Min(e[0], e[1]),
+    "maximum": lambda e, kw, raw: _maximum(e[0], e[1]),
+    "minimum": lambda e, kw, raw: _minimum(e[0], e[1]),
     "max": _max,
     "matmul": lambda e, kw, raw: F.matmul(e[0], e[1]),
     "mm": lambda e, kw, raw: F.matmul(e[0], e[1]),
@@ -174,8 +175,8 @@ _TENSOR_METHODS = {
     "square": lambda e, kw: sympy.Pow(e[0], 2),
     "relu": lambda e, kw: F.pos(e[0]),
     "clamp": lambda e, kw: _clamp(e, kw, None),
-    "clamp_min": lambda e, kw: sympy.Max(e[0], e[1]),
-    "clamp_max": lambda e, kw: sympy.Min(e[0], e[1]),
+    "clamp_min": lambda e, kw: _maximum(e[0], e[1]),
+    "clamp_max": lambda e, kw: _minimum(e[0], e[1]),
     "norm": lambda e, kw: _tnorm(e, kw, None),
     "logsumexp": lambda e, kw: F.log_sum_exp(e[0]),
     "view": lambda e, kw: F.reshape(e[0]),
