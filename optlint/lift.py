@@ -94,7 +94,7 @@ def maximum(*args) -> sympy.Basic:
     try:
         return sympy.Max(*args)
     except (ValueError, TypeError):
-        return sympy.Max(*args, evaluate=False)
+        return sympy.Max(*_numbers(args), evaluate=False)
 
 
 def minimum(*args) -> sympy.Basic:
@@ -102,4 +102,18 @@ def minimum(*args) -> sympy.Basic:
     try:
         return sympy.Min(*args)
     except (ValueError, TypeError):
-        return sympy.Min(*args, evaluate=False)
+        return sympy.Min(*_numbers(args), evaluate=False)
+
+
+def _numbers(args) -> list:
+    """The arguments as sympy objects; TypeError for anything else (None: a value that is not a
+    number, which the caller reports as an unknown call), so no maximum holds a None."""
+    out = []
+    for a in args:
+        if isinstance(a, sympy.Basic):
+            out.append(a)
+        elif isinstance(a, bool) or not isinstance(a, (int, float)):
+            raise TypeError(f"not a number: {type(a).__name__}")
+        else:
+            out.append(sympy.Integer(a) if isinstance(a, int) else sympy.Float(a))
+    return out

@@ -166,3 +166,21 @@ def test_odd_values_are_read_not_crashed_on(tmp_path, name, text, expected):
     path = tmp_path / name
     path.write_text(text)
     assert sorted((f.rule, f.site.line) for f in check_file(str(path)).findings) == expected
+
+
+def test_maximum_keeps_what_sympy_cannot_order_and_refuses_what_is_no_number():
+    """optlint.lift.maximum: unevaluated where sympy refuses to order a constant, and a TypeError
+    (the recognisers' sign for "unknown call") for an argument that is no number at all: a None
+    kept inside a Max broke every later step (a fuzzed CasADi model, `fmax` of an unknown value)."""
+    import sympy
+
+    from optlint.calculus import functions as F
+    from optlint.lift import maximum, minimum
+
+    odd = sympy.Float(60.0) - F.matmul(sympy.Float(6.5), sympy.Float(4.0))
+    m = maximum(odd, 0.0)
+    assert isinstance(m, sympy.Max) and set(m.args) == {odd, sympy.Float(0.0)}
+    assert isinstance(minimum(odd, 1), sympy.Min)
+    assert maximum(sympy.Integer(2), 3) == 3  # ordinary values are evaluated as before
+    with pytest.raises(TypeError):
+        maximum(odd, None)
