@@ -100,7 +100,20 @@ def fit(X, y):
 '''
 
 
+# and data raised to 10**10 entry by entry when the function is scalarised (ARM: over 30 s).
+ARM = '''\
+"""Arm effort with a wrench raised to 10**10 (a typo for a unit conversion)."""
+import cvxpy as cp
+import numpy as np
+
+wrench = np.array([-1.0, 0.4, -35.0]) ** 10**10
+tau = cp.Variable(3)
+prob = cp.Problem(cp.Minimize(cp.sum(cp.sqrt(cp.abs(tau - wrench)))))
+'''
+
+
 @pytest.mark.parametrize("name, text, expected", [
+    ("arm.py", ARM, [("nonconvex-penalty", 7)]),
     ("silo.py", SILO, [("nonconvex-inequality", 5)]),
     ("churn.py", CHURN, [("nonconvex-objective", 12)]),
 ])

@@ -50,6 +50,9 @@ _ELEMENTWISE = (sympy.exp, sympy.log, sympy.Abs, sympy.sin, sympy.cos, sympy.tan
                 sympy.sinh, sympy.cosh, sympy.atan, sympy.sign)
 
 
+MAX_POWER = 1024  # exponents beyond this are not scalarised (see _build)
+
+
 class Unsupported(Exception):
     pass
 
@@ -225,6 +228,10 @@ class _Builder:
             raise Unsupported("unknown function")
         if isinstance(node, F.index):
             return self.index(node)
+        if isinstance(node, sympy.Pow) and node.exp.is_Number and abs(node.exp) > MAX_POWER:
+            # entries raised exactly to 10**10 took minutes (a fuzzed model); in doubles such a
+            # power is 0, 1 or inf almost everywhere, so there is nothing to evaluate
+            raise Unsupported("huge power")
         args = [self.build(a) for a in node.args] if not isinstance(node, _PARAM_ATOMS) else None
         if isinstance(node, sympy.Add):
             return _fold(args, lambda a, b: a + b)
