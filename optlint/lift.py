@@ -91,18 +91,19 @@ def maximum(*args) -> sympy.Basic:
     """``sympy.Max(*args)``; where sympy refuses an argument as not comparable (a number it
     cannot order, such as an atom applied to constants: ``60.0 - matmul(6.5, 4.0)``), the same
     maximum unevaluated, instead of a ValueError out of the recogniser (found by the fuzzer)."""
-    try:
-        return sympy.Max(*args)
-    except (ValueError, TypeError):
-        return sympy.Max(*_numbers(args), evaluate=False)
+    return _lattice(sympy.Max, args)
 
 
 def minimum(*args) -> sympy.Basic:
     """``sympy.Min(*args)``, unevaluated where sympy refuses an argument (see ``maximum``)."""
+    return _lattice(sympy.Min, args)
+
+
+def _lattice(cls, args) -> sympy.Basic:
     try:
-        return sympy.Min(*args)
+        return cls(*args)
     except (ValueError, TypeError):
-        return sympy.Min(*_numbers(args), evaluate=False)
+        return cls(*_numbers(args), evaluate=False)
 
 
 def _numbers(args) -> list:

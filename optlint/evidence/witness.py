@@ -59,9 +59,7 @@ def _affine_root(node, index) -> tuple[int, float] | None:
         return None
     simple = _linear_terms(node)
     if simple is not None:  # c_1 x_1 + ... + d as written: no Poly needed (same answer, cheaper)
-        const, coeffs = simple
-        x = max(coeffs, key=lambda s: abs(coeffs[s]))
-        return index[x], _dyadic(-const / coeffs[x], _FINE)
+        return _root_along_largest(*simple, index)
     if not node.is_polynomial(*free):
         return None
     if any(n.is_Pow and n.exp.is_Number and abs(n.exp) > _MAX_ROOT_DEGREE for n in preorder(node)):
@@ -78,6 +76,10 @@ def _affine_root(node, index) -> tuple[int, float] | None:
     for monom, c in terms.items():
         if sum(monom) == 1:
             coeffs[poly.gens[monom.index(1)]] = float(c)
+    return _root_along_largest(const, coeffs, index)
+
+
+def _root_along_largest(const: float, coeffs: dict, index) -> tuple[int, float]:
     x = max(coeffs, key=lambda s: abs(coeffs[s]))
     return index[x], _dyadic(-const / coeffs[x], _FINE)
 
