@@ -51,16 +51,42 @@ def number_from_literal(kind: str, text: str) -> sympy.Basic | None:
     return None
 
 
+def _exact_power_too_big(base: sympy.Basic, exp: sympy.Basic) -> bool:
+    """Whether base ** exp of two constants would be an exact number of more than
+    ``MAX_EXACT_POW_BITS`` bits (or its size cannot even be estimated)."""
+    try:
+        return abs(float(exp)) * max(1.0, math.log2(abs(complex(base)) + 1.0)) > MAX_EXACT_POW_BITS
+    except (OverflowError, ValueError, TypeError):
+        return True
+
+
+def _opaque_power(base: sympy.Basic, exp: sympy.Basic) -> sympy.Basic:
+    positive = bool(base.is_positive)
+    return data(f"({base})**({exp})", positive=positive) if positive else data(f"({base})**({exp})")
+
+
 def safe_pow(base: sympy.Basic, exp: sympy.Basic) -> sympy.Basic:
-    """base ** exp, without letting sympy compute astronomically large numbers."""
-    if base.is_Number and exp.is_Number:
-        try:
-            big = abs(float(exp)) * max(1.0, math.log2(abs(float(base)) + 1.0)) > MAX_EXACT_POW_BITS
-        except (OverflowError, ValueError, TypeError):
-            big = True
-        if big:
-            positive = bool(base.is_positive)
-            return data(f"({base})**({exp})", positive=positive) if positive else data(f"({base})**({exp})")
+    """base ** exp, without letting sympy compute astronomically large numbers.
+
+    A constant base with a large exponent becomes opaque data. A product with constant factors is
+    split first, because sympy distributes a numeric exponent over a product and would compute the
+    constant part exactly: ``(2*x)**(10**10)`` is ``2**(10**10) * x**(10**10)`` (found by the
+    mutation fuzzer; minutes of big-integer arithmetic). The split is exact on the principal branch
+    that sympy uses: for a constant c > 0, ``(c*r)**e == c**e * r**e`` for every e; for c < 0 the
+    sign moves into r, ``(c*r)**e == (-c)**e * (-r)**e``."""
+    if not (isinstance(base, sympy.Basic) and isinstance(exp, sympy.Basic) and exp.is_Number):
+        return sympy.Pow(base, exp)
+    if base.is_number:
+        return _opaque_power(base, exp) if _exact_power_too_big(base, exp) else sympy.Pow(base, exp)
+    if isinstance(base, sympy.Mul):
+        constant = sympy.Mul(*[f for f in base.args if f.is_number])
+        if constant != 1 and _exact_power_too_big(constant, exp):
+            rest = sympy.Mul(*[f for f in base.args if not f.is_number])
+            if constant.is_negative:
+                constant, rest = -constant, -rest
+            if constant.is_positive:
+                return _opaque_power(constant, exp) * sympy.Pow(rest, exp)
+            return sympy.Function("operator**")(base, exp)   # a complex or unordered constant: unknown
     return sympy.Pow(base, exp)
 
 

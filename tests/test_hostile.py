@@ -112,8 +112,32 @@ prob = cp.Problem(cp.Minimize(cp.sum(cp.sqrt(cp.abs(tau - wrench)))))
 '''
 
 
+# and a product with a constant factor raised to 10**10 in the interpreter or through a power
+# function of a dialect: sympy distributes the exponent and computes 2**(10**10) exactly (GLASSHOUSE:
+# minutes; found by the mutation fuzzer in a CasADi fixture).
+GLASSHOUSE = '''\
+"""Glasshouse lamp schedule; a unit conversion typed as ** 10**10."""
+import casadi as ca
+
+HOURS = 6
+opti = ca.Opti()
+lamp = opti.variable(HOURS)
+heat = opti.variable(HOURS)
+
+
+def glow(k):
+    return 2 * lamp[k] * heat[k]
+
+
+opti.minimize(ca.sum1(ca.power(3 * lamp, 10**10)) + ca.constpow(-5 * heat[0], 10**12) + 0.5 * ca.sumsqr(heat))
+opti.minimize(sum(glow(k) ** 10**10 for k in range(HOURS)))
+opti.subject_to(opti.bounded(0, lamp, 1.0))
+'''
+
+
 @pytest.mark.parametrize("name, text, expected", [
     ("arm.py", ARM, [("nonconvex-penalty", 7)]),
+    ("glasshouse.py", GLASSHOUSE, [("nonconvex-objective", 15)]),   # the first objective is convex
     ("silo.py", SILO, [("nonconvex-inequality", 5)]),
     ("churn.py", CHURN, [("nonconvex-objective", 12)]),
 ])

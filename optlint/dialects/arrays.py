@@ -22,7 +22,7 @@ from optlint.calculus import functions as F
 from optlint.dialects.registry import Registry
 from optlint.interp import NONE, DialectHooks, GlobalRef, Interpreter, ListVal, Opaque
 from optlint.ir import Declaration
-from optlint.lift import preorder
+from optlint.lift import preorder, safe_pow
 from optlint.lift import maximum as _maximum, minimum as _minimum
 
 _INF_NAMES = {"numpy.inf", "numpy.Inf", "numpy.infty", "numpy.PINF", "math.inf", "casadi.inf"}
@@ -236,7 +236,7 @@ NUMPY = {
     "absolute": lambda e, kw, raw: sympy.Abs(e[0]),
     "fabs": lambda e, kw, raw: sympy.Abs(e[0]),
     "square": lambda e, kw, raw: sympy.Pow(e[0], 2),
-    "power": lambda e, kw, raw: sympy.Pow(e[0], e[1]),
+    "power": lambda e, kw, raw: safe_pow(e[0], e[1]),
     "maximum": lambda e, kw, raw: _maximum(e[0], e[1]),
     "minimum": lambda e, kw, raw: _minimum(e[0], e[1]),
     "fmax": lambda e, kw, raw: _maximum(e[0], e[1]),

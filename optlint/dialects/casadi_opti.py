@@ -27,7 +27,7 @@ from optlint.dialects.arrays import (NUMPY, ArrayHooks, DialectRegistry, hint_na
                                      sign_of_number)
 from optlint.interp import NONE, ConsVal, InstanceVal, Interpreter, ListVal, Opaque
 from optlint.ir import Model
-from optlint.lift import data
+from optlint.lift import data, safe_pow
 from optlint.dialects.registry import run_dialect
 from optlint.lift import maximum as _maximum, minimum as _minimum
 
@@ -79,8 +79,8 @@ CASADI = {
     "transpose": lambda e, kw, raw: F.transpose(e[0]),
     "reshape": lambda e, kw, raw: F.reshape(e[0]),
     "vec": lambda e, kw, raw: F.reshape(e[0]),
-    "power": lambda e, kw, raw: sympy.Pow(e[0], e[1]),
-    "constpow": lambda e, kw, raw: sympy.Pow(e[0], e[1]),
+    "power": lambda e, kw, raw: safe_pow(e[0], e[1]),
+    "constpow": lambda e, kw, raw: safe_pow(e[0], e[1]),
     "sq": lambda e, kw, raw: sympy.Pow(e[0], 2),
     "logsumexp": lambda e, kw, raw: F.log_sum_exp(e[0]),
     "diff": lambda e, kw, raw: F.diff(e[0]),

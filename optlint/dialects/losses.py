@@ -24,7 +24,7 @@ import sympy
 
 from optlint import guards
 from optlint.calculus import functions as F
-from optlint.lift import data
+from optlint.lift import data, safe_pow
 from optlint.dialects.arrays import METHODS, NUMPY, ArrayHooks, DialectRegistry, clip, hint_name, log1p_of, log_of
 from optlint.interp import NONE, BoundFunc, FuncVal, InstanceVal, Interpreter, Opaque, PartialVal
 from optlint.ir import Model
@@ -111,7 +111,7 @@ def _tnorm(e, kw, raw):
 
 
 def _pow(e, kw, raw):
-    return sympy.Pow(e[0], e[1])
+    return safe_pow(e[0], e[1])
 
 
 def _max(e, kw, raw):
@@ -166,7 +166,7 @@ _LOSS_CLASSES = {
 
 # Tensor methods beyond numpy's array methods.
 _TENSOR_METHODS = {
-    "pow": lambda e, kw: sympy.Pow(e[0], e[1]),
+    "pow": lambda e, kw: safe_pow(e[0], e[1]),
     "abs": lambda e, kw: sympy.Abs(e[0]),
     "exp": lambda e, kw: sympy.exp(e[0]),
     "log": lambda e, kw: log_of(e[0]),
