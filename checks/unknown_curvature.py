@@ -25,10 +25,17 @@ objective = cp.Minimize(cp.sum(cp.huber(x, 1.0)))
 
 
 def message(analysis, j) -> str:
-    names = ", ".join(f"`{n}`" for n in j.result.unknown_functions)
-    plural = "functions" if len(j.result.unknown_functions) > 1 else "function"
-    return (f"curvature unknown: {plural} {names} applied to decision variables "
-            f"has no known curvature, so convexity of `{j.item.code}` is not established")
+    from optlint.calculus.analysis import unknown_label
+
+    names = j.result.unknown_functions
+    if all(unknown_label(n) == f"function `{n}`" for n in names):
+        listed = ", ".join(f"`{n}`" for n in names)
+        plural = "functions" if len(names) > 1 else "function"
+        return (f"curvature unknown: {plural} {listed} applied to decision variables "
+                f"has no known curvature, so convexity of `{j.item.code}` is not established")
+    listed = "; ".join(unknown_label(n) for n in names)
+    return (f"curvature unknown: {listed} (applied to decision variables), "
+            f"so convexity of `{j.item.code}` is not established")
 
 
 def check(model, analysis):

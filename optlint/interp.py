@@ -1473,8 +1473,11 @@ class Interpreter:
 # helpers
 
 _REL = {"LessThanEqual": "<=", "GreaterThanEqual": ">=", "Equal": "==", "LessThan": "<", "GreaterThan": ">"}
-_OP_TEXT = {"FloorDivide": "//", "Modulo": "%", "BitAnd": "&", "BitOr": "|", "BitXor": "^",
+_OP_TEXT = {"Add": "+", "Subtract": "-", "Multiply": "*", "Divide": "/", "Power": "**", "MatrixMultiply": "@",
+            "FloorDivide": "//", "Modulo": "%", "BitAnd": "&", "BitOr": "|", "BitXor": "^",
             "LeftShift": "<<", "RightShift": ">>"}
+# An operation optlint cannot follow on a model term is an unknown function named ``operator`` and
+# the operator's text (``operator+``); optlint.calculus.analysis.unknown_label words it for people.
 
 
 def _is_plain_data(value) -> bool:

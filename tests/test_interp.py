@@ -240,3 +240,20 @@ def test_loop_targets_are_integers_only_where_the_iterable_says_so():
     interp.exec_block(wrapper.module.body, env)
     kinds = {name: env.vars[name][0].value.is_integer for name in ("k", "w", "i", "v")}
     assert kinds == {"k": True, "w": None, "i": True, "v": None}
+
+
+def test_an_operation_on_something_unmodelled_is_named_for_people(tmp_path):
+    # A model term plus a value the interpreter cannot follow (a bound method) is an unknown
+    # function of the term; the finding names the operator, never the internal name (operatorAdd).
+    path = tmp_path / "pumps.py"
+    path.write_text(textwrap.dedent("""
+        import cvxpy as cp
+        TARIFF = {"peak": 3.0}
+        flow = cp.Variable(4)
+        cost = cp.sum_squares(flow) + TARIFF.get
+        prob = cp.Problem(cp.Minimize(cost), [flow >= 0])
+    """))
+    (finding,) = check_file(str(path)).findings
+    assert (finding.rule, finding.site.line) == ("unknown-curvature", 6)
+    assert "operator `+` with an operand optlint cannot follow" in finding.message
+    assert "operatorAdd" not in finding.message and "operator+" not in finding.message

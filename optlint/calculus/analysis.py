@@ -112,7 +112,7 @@ class _Walker:
             if has_var:  # an unknown function of data only is just data
                 self.unknown_names.setdefault(name, None)
             d, params = Derivation(node, CURV.UNKNOWN, Sign.UNKNOWN, "unknown-function",
-                                   f"function '{name}' is unknown", _ds(kids), function_name=name), ()
+                                   f"{_reason_label(name)} is unknown", _ds(kids), function_name=name), ()
         elif node.func is sympy.Pow or node.func in cat.FIXED or isinstance(node, ModelFunction):
             d, params = self._atom(node, kids)
         elif isinstance(node, sympy.Function):
@@ -267,6 +267,23 @@ def _ds(kids: Sequence[_Node]) -> list[Derivation]:
 
 def _undef_name(node: sympy.Basic) -> str:
     return getattr(node.func, "__name__", str(node.func))
+
+
+OPERATOR_PREFIX = "operator"
+
+
+def unknown_label(name: str) -> str:
+    """How a finding names an unknown function: the interpreter names an operation it cannot follow
+    ``operator`` + its text (``operator+``: one operand is a model term, the other nothing optlint
+    models); that is worded as such instead of showing the internal name."""
+    if name.startswith(OPERATOR_PREFIX) and len(name) > len(OPERATOR_PREFIX) and not name[len(OPERATOR_PREFIX)].isalnum():
+        return f"operator `{name[len(OPERATOR_PREFIX):]}` with an operand optlint cannot follow"
+    return f"function `{name}`"
+
+
+def _reason_label(name: str) -> str:
+    label = unknown_label(name)
+    return f"function '{name}'" if label == f"function `{name}`" else label
 
 
 def _bad_leaf(node: sympy.Basic, reason: str) -> _Node:
