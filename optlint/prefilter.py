@@ -45,10 +45,23 @@ class _Lagrangian:
         return False
 
 
+class _AlsoNames:
+    """An import signature that also needs a word in the file: the scipy dialect reads only
+    scipy.optimize, which any use must spell out (``from scipy import optimize``, ``import
+    scipy.optimize``, ``scipy.optimize.minimize``), so files using only scipy.linalg, scipy.stats or
+    scipy.signal are skipped without parsing."""
+
+    def __init__(self, pattern: re.Pattern[bytes], word: bytes):
+        self.pattern, self.word = pattern, word
+
+    def search(self, data: bytes) -> bool:
+        return self.word in data and self.pattern.search(data) is not None
+
+
 SIGNATURES: dict = {
     "dsl": _imports(rb"cvxpy"),
     "algebraic": _imports(rb"pyomo"),
-    "scipy": _imports(rb"scipy"),
+    "scipy": _AlsoNames(_imports(rb"scipy"), b"optimize"),
     "casadi": _imports(rb"casadi"),
     "losses": _imports(rb"torch"),
     "pulp": _imports(rb"pulp"),

@@ -34,6 +34,16 @@ def test_prefilter_signatures(source, dialect):
     assert dialect in scan_dialects("m.py", source)
 
 
+@pytest.mark.parametrize("source, expected", [
+    (b"import scipy\nfrom scipy import linalg\nu = linalg.solve(a, b)\n", False),   # no optimize: skipped
+    (b"from scipy.stats import norm\n", False),
+    (b"import scipy\nres = scipy.optimize.minimize(f, x0)\n", True),
+    (b"import scipy as sp\nsp.optimize.linprog(c)\n", True),
+])
+def test_the_scipy_signature_needs_scipy_optimize(source, expected):
+    assert ("scipy" in scan_dialects("m.py", source)) is expected
+
+
 def test_prefilter_ignores_mentions_that_are_not_imports():
     assert scan_dialects("m.py", b"# we used to use pyomo and torch here\nx = 'casadi'\n") == ()
 
