@@ -19,9 +19,9 @@ Invariants (soundness first; any doubt returns None):
   base of a negative or fractional power must be provably positive on D, so f is C^2 on an open
   set containing D; a PSD Hessian on D gives convexity on D's interior and, f being continuous on
   D, on D itself (the chord inequality passes to limits).
-- Sizes are capped (scalars, nodes, minors, the degree of a minor over a common denominator, and
-  the rationals in exponents, which sympy's polynomial algebra turns into degrees), so the cost
-  per expression is bounded.
+- Sizes are capped (scalars, nodes, minors, the degree of a minor over a common denominator, the
+  bit length of its exact coefficients, and the rationals in exponents, which sympy's polynomial
+  algebra turns into degrees), so the cost per expression is bounded.
 """
 
 from __future__ import annotations
@@ -40,6 +40,7 @@ MAX_QUADRATIC = 16
 MAX_NODES = 160
 MAX_MINOR_NODES = 600
 MAX_MINOR_ENTRY_NODES = 240
+MAX_COEFFICIENT_BITS = 512   # the fixtures' minors need at most 106 (exact binary rationals of floats)
 _EIG_RTOL = 1e-9
 REFERENCE = "B&V 2004 §3.1.4 (second-order conditions)"
 
@@ -126,6 +127,11 @@ def _degree_bound(expr) -> int:
     return num + den
 
 
+def _coefficient_bits(expr) -> int:
+    """The longest numerator or denominator, in bits, among the exact rationals of expr."""
+    return max((max(abs(r.p).bit_length(), r.q.bit_length()) for r in expr.atoms(sympy.Rational)), default=0)
+
+
 def _minors_nonnegative(h: sympy.Matrix) -> bool:
     n = h.shape[0]
     for k in range(1, n + 1):
@@ -136,6 +142,8 @@ def _minors_nonnegative(h: sympy.Matrix) -> bool:
             m = sub.det(method="berkowitz") if k > 1 else sub[0, 0]
             if _nodes(m) > MAX_MINOR_NODES or _degree_bound(m) > MAX_MINOR_DEGREE:
                 return False  # factoring a polynomial of degree 40 in 3 variables takes minutes
+            if _coefficient_bits(m) > MAX_COEFFICIENT_BITS:
+                return False  # 1e308 read exactly is a 1,024-bit integer: factoring took 12 s in primality tests
             m = sympy.factor(sympy.cancel(sympy.together(m)))
             if m.is_nonnegative is not True:
                 return False
