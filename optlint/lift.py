@@ -51,7 +51,7 @@ def number_from_literal(kind: str, text: str) -> sympy.Basic | None:
     return None
 
 
-def _exact_power_too_big(base: sympy.Basic, exp: sympy.Basic) -> bool:
+def exact_power_too_big(base: sympy.Basic, exp: sympy.Basic) -> bool:
     """Whether base ** exp of two constants would be an exact number of more than
     ``MAX_EXACT_POW_BITS`` bits (or its size cannot even be estimated)."""
     try:
@@ -77,10 +77,10 @@ def safe_pow(base: sympy.Basic, exp: sympy.Basic) -> sympy.Basic:
     if not (isinstance(base, sympy.Basic) and isinstance(exp, sympy.Basic) and exp.is_Number):
         return sympy.Pow(base, exp)
     if base.is_number:
-        return _opaque_power(base, exp) if _exact_power_too_big(base, exp) else sympy.Pow(base, exp)
+        return _opaque_power(base, exp) if exact_power_too_big(base, exp) else sympy.Pow(base, exp)
     if isinstance(base, sympy.Mul):
         constant = sympy.Mul(*[f for f in base.args if f.is_number])
-        if constant != 1 and _exact_power_too_big(constant, exp):
+        if constant != 1 and exact_power_too_big(constant, exp):
             rest = sympy.Mul(*[f for f in base.args if not f.is_number])
             if constant.is_negative:
                 constant, rest = -constant, -rest

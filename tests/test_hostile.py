@@ -150,10 +150,26 @@ prob = cp.Problem(cp.Minimize(spread / FAN_WEIGHTS @ fan), [fan >= 0])
 '''
 
 
+# A data power whose exponent is data times 10**10: the witness search put trial values into it
+# (3**(4*10**10) exactly) and hung (TRAM; found by the mutation fuzzer in a regression fixture).
+TRAM = '''\
+"""Tram ridership fit; a damping factor typed with an exponent of 10**10."""
+import cvxpy as cp
+
+
+def fit(shift, boardings, decay):
+    beta = cp.Variable(3)
+    damp = (decay + 2) ** (10**10 * shift)
+    shortfall = cp.sum(0.5 ** cp.neg(boardings - damp * beta))
+    return cp.Problem(cp.Minimize(shortfall), [beta >= 0]).solve()
+'''
+
+
 @pytest.mark.parametrize("name, text, expected", [
     ("arm.py", ARM, [("nonconvex-penalty", 7)]),
     ("glasshouse.py", GLASSHOUSE, [("nonconvex-objective", 15)]),   # the first objective is convex
     ("dryer.py", DRYER, [("nonconvex-objective", 8)]),
+    ("tram.py", TRAM, [("nonconvex-objective", 9)]),
     ("silo.py", SILO, [("nonconvex-inequality", 5)]),
     ("churn.py", CHURN, [("nonconvex-objective", 12)]),
 ])

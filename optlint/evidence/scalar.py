@@ -36,7 +36,7 @@ import sympy
 from sympy.core.function import AppliedUndef
 
 from optlint.calculus import functions as F
-from optlint.lift import DataSymbol, preorder
+from optlint.lift import DataSymbol, exact_power_too_big, preorder
 from optlint.printer import show
 
 MAX_SCALARS = 64
@@ -434,9 +434,21 @@ def _min(*args):
 _UNEVALUATED = {sympy.Max: _max, sympy.Min: _min}
 
 
+def _float_power(base, exp):
+    """A power of two numbers too large to compute exactly, in floating point (mpmath keeps the
+    exponent range, so 3.0**(4e10) is quick), or nan where it is not a real number."""
+    try:
+        out = sympy.Float(base) ** sympy.Float(exp)
+    except (TypeError, ValueError):
+        return sympy.nan
+    return out if out.is_real else sympy.nan
+
+
 def substitute(expr, subs: dict):
     """``expr.xreplace(subs)`` that rebuilds Max and Min unevaluated (xreplace would evaluate
-    them again); every other node is rebuilt as xreplace does."""
+    them again) and a power of two numbers too large to compute exactly in floating point (data
+    values put into ``d2**(10**10*d3)`` made 3**(4*10**10) exactly: a fuzzed model hung); every
+    other node is rebuilt as xreplace does."""
     memo: dict = {}
 
     def walk(e):
@@ -452,6 +464,8 @@ def substitute(expr, subs: dict):
             out = e
         elif isinstance(e, (sympy.Max, sympy.Min)):
             out = e.func(*args, evaluate=False)
+        elif isinstance(e, sympy.Pow) and args[0].is_number and args[1].is_number and exact_power_too_big(*args):
+            out = _float_power(*args)
         else:
             out = e.func(*args)
         memo[e] = out
