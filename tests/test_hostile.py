@@ -165,15 +165,47 @@ def fit(shift, boardings, decay):
 '''
 
 
+# Not huge numbers but large expressions, both found by the mutation fuzzer: the witness search
+# expanded (an 18-term sum)**6 into 134,596 terms to look for an affine root (MIRROR: minutes),
+# and sympy's Piecewise folded the guard ``x > 0`` of inv_pos over a sum of 48 Huber pieces
+# (TUNNEL: over three minutes).
+MIRROR = '''\
+"""Mirror segment alignment; a saturating loss on the mean tilt residual."""
+import cvxpy as cp
+
+SEGMENTS = 18
+tilt = cp.Variable(SEGMENTS)
+mean_residual = cp.sum(0.04 * tilt) - 0.52
+loss = cp.log(1 + cp.power(mean_residual, 6))
+prob = cp.Problem(cp.Minimize(loss + 1e-3 * cp.sum_squares(tilt)))
+'''
+
+TUNNEL = '''\
+"""Tunnel humidity tracking; the cost was wrapped in inv_pos by mistake."""
+import cvxpy as cp
+
+HOURS = 48
+
+
+def plan(scale):
+    rh = cp.Variable(HOURS)
+    mist = cp.Variable(12)
+    cost = cp.sum(cp.huber(rh - 92, 1.0)) + cp.sum_squares(rh - 90) / scale**2
+    return cp.Problem(cp.Minimize(cp.inv_pos(cost + 0.2 * cp.sum(mist))), [mist >= 0]).solve()
+'''
+
+
 @pytest.mark.parametrize("name, text, expected", [
     ("arm.py", ARM, [("nonconvex-penalty", 7)]),
     ("glasshouse.py", GLASSHOUSE, [("nonconvex-objective", 15)]),   # the first objective is convex
     ("dryer.py", DRYER, [("nonconvex-objective", 8)]),
     ("tram.py", TRAM, [("nonconvex-objective", 9)]),
+    ("mirror.py", MIRROR, [("nonconvex-penalty", 8)]),
+    ("tunnel.py", TUNNEL, [("nonconvex-objective", 11)]),
     ("silo.py", SILO, [("nonconvex-inequality", 5)]),
     ("churn.py", CHURN, [("nonconvex-objective", 12)]),
 ])
-def test_huge_numbers_are_judged_without_exhausting_time_or_memory(tmp_path, name, text, expected):
+def test_huge_numbers_and_large_expressions_are_judged_without_exhausting_time_or_memory(tmp_path, name, text, expected):
     path = tmp_path / name
     path.write_text(text)
     start = time.perf_counter()

@@ -34,6 +34,7 @@ from dataclasses import dataclass, field
 import numpy
 import sympy
 from sympy.core.function import AppliedUndef
+from sympy.functions.elementary.piecewise import ExprCondPair
 
 from optlint.calculus import functions as F
 from optlint.lift import DataSymbol, exact_power_too_big, preorder
@@ -321,7 +322,7 @@ class _Builder:
             return _scalar(sympy.Add(*[e ** 2 for e in a.ravel()]))
         if f is F.quad_over_lin:
             y = _one(args[1])
-            return _scalar(_restrict(sympy.Add(*[e ** 2 for e in a.ravel()]) / y, y > 0))
+            return _scalar(_restrict(sympy.Add(*[e ** 2 for e in a.ravel()]) / y, _gt0(y)))
         if f is F.quad_form:
             return self.quad(a, args[1])
         if f is F.log_sum_exp:
@@ -331,7 +332,7 @@ class _Builder:
             return _scalar(sympy.Mul(*[e ** sympy.Rational(1, n) for e in a.ravel()]))
         if f is F.harmonic_mean:
             es = list(a.ravel())
-            return _scalar(_restrict(len(es) / sympy.Add(*[1 / e for e in es]), sympy.And(*[e > 0 for e in es])))
+            return _scalar(_restrict(len(es) / sympy.Add(*[1 / e for e in es]), _all([_gt0(e) for e in es])))
         if f is F.vmax:
             return _scalar(_max(*a.ravel()))
         if f is F.vmin:
@@ -362,14 +363,15 @@ class _Builder:
             raise Unsupported("norm parameter")
         if f is F.huber:
             m = p
-            return _map1(lambda e: sympy.Piecewise((e ** 2, sympy.Abs(e) <= m),
-                                                   (2 * m * sympy.Abs(e) - m ** 2, True)), a)
+            return _map1(lambda e: _piecewise([(e ** 2, sympy.Abs(e) <= m if _small(e) else
+                                                sympy.LessThan(sympy.Abs(e), m, evaluate=False)),
+                                               (2 * m * sympy.Abs(e) - m ** 2, sympy.true)]), a)
         if f is F.power:
             if p.is_integer and p >= 0:
                 return _map1(lambda e: e ** p, a)
             if p > 0:
-                return _map1(lambda e: _restrict(e ** p, e >= 0), a)
-            return _map1(lambda e: _restrict(e ** p, e > 0), a)
+                return _map1(lambda e: _restrict(e ** p, _ge0(e)), a)
+            return _map1(lambda e: _restrict(e ** p, _gt0(e)), a)
         if f in (F.sum_largest, F.sum_smallest):
             k = int(p)
             if not 1 <= k <= len(es) or len(es) > 8:
@@ -415,8 +417,48 @@ _PARAM_ATOMS = (F.pnorm, F.huber, F.power, F.sum_largest, F.sum_smallest)
 
 
 def _restrict(expr, cond):
-    """``expr`` on the domain ``cond``, +oo elsewhere (the extended-value convention)."""
-    return sympy.Piecewise((expr, cond), (sympy.oo, True))
+    """``expr`` on the domain ``cond``, +oo elsewhere (the extended-value convention).
+
+    Small pieces are built as sympy builds them (a guard it can settle, such as ``Abs(x) >= 0``,
+    disappears). Large ones are built as given: sympy's Piecewise canonicalises its conditions,
+    folds every condition holding a Piecewise into if-then-else form and asks the assumption
+    system about them, which on ``x > 0`` over a sum of 48 Huber pieces (a fuzzed model) took
+    over three minutes; the numeric evaluator needs the pairs only."""
+    if cond is sympy.true:
+        return expr
+    return _piecewise([(expr, cond), (sympy.oo, sympy.true)])
+
+
+SMALL_NODES = 60  # up to this size a condition or a piece is left to sympy's own simplification
+
+
+def _small(*exprs) -> bool:
+    count = 0
+    for e in exprs:
+        for _ in preorder(e):
+            count += 1
+            if count > SMALL_NODES:
+                return False
+    return True
+
+
+def _piecewise(pairs):
+    if _small(*[c for _, c in pairs]) and not any(c.has(sympy.Piecewise) for _, c in pairs):
+        return sympy.Piecewise(*pairs)
+    return sympy.Basic.__new__(sympy.Piecewise, *[sympy.Tuple.__new__(ExprCondPair, sympy.sympify(v), c)
+                                                   for v, c in pairs])
+
+
+def _gt0(e):
+    return e > 0 if _small(e) else sympy.StrictGreaterThan(e, 0, evaluate=False)
+
+
+def _ge0(e):
+    return e >= 0 if _small(e) else sympy.GreaterThan(e, 0, evaluate=False)
+
+
+def _all(conditions):
+    return sympy.And(*conditions) if _small(*conditions) else sympy.And(*conditions, evaluate=False)
 
 
 # Max and Min are built unevaluated: the scalar function is only evaluated numerically (witness
@@ -445,8 +487,8 @@ def _float_power(base, exp):
 
 
 def substitute(expr, subs: dict):
-    """``expr.xreplace(subs)`` that rebuilds Max and Min unevaluated (xreplace would evaluate
-    them again) and a power of two numbers too large to compute exactly in floating point (data
+    """``expr.xreplace(subs)`` that rebuilds Max, Min, And, Or, Piecewise and comparisons that
+    still hold symbols unevaluated (xreplace would evaluate them again; see ``_restrict``) and a power of two numbers too large to compute exactly in floating point (data
     values put into ``d2**(10**10*d3)`` made 3**(4*10**10) exactly: a fuzzed model hung); every
     other node is rebuilt as xreplace does."""
     memo: dict = {}
@@ -462,7 +504,13 @@ def substitute(expr, subs: dict):
         args = tuple(walk(a) for a in e.args)
         if args == e.args:
             out = e
-        elif isinstance(e, (sympy.Max, sympy.Min)):
+        elif isinstance(e, (sympy.Max, sympy.Min)) or (isinstance(e, (sympy.And, sympy.Or)) and not _small(*args)):
+            out = e.func(*args, evaluate=False)
+        elif isinstance(e, sympy.Piecewise):
+            out = _piecewise([p.args for p in args])
+        elif isinstance(e, ExprCondPair):
+            out = sympy.Tuple.__new__(ExprCondPair, *args)
+        elif isinstance(e, sympy.core.relational.Relational) and not _small(*args):
             out = e.func(*args, evaluate=False)
         elif isinstance(e, sympy.Pow) and args[0].is_number and args[1].is_number and exact_power_too_big(*args):
             out = _float_power(*args)
@@ -475,19 +523,19 @@ def substitute(expr, subs: dict):
 
 
 def _neg_log(e):
-    return _restrict(-e * sympy.log(e), e > 0)
+    return _restrict(-e * sympy.log(e), _gt0(e))
 
 
 _SCALAR_FORMS = {
     F.entr: _neg_log,
-    F.rel_entr: lambda x, y: _restrict(x * sympy.log(x) - x * sympy.log(y), sympy.And(x > 0, y > 0)),
-    F.kl_div: lambda x, y: _restrict(x * sympy.log(x) - x * sympy.log(y) - x + y, sympy.And(x > 0, y > 0)),
+    F.rel_entr: lambda x, y: _restrict(x * sympy.log(x) - x * sympy.log(y), _all([_gt0(x), _gt0(y)])),
+    F.kl_div: lambda x, y: _restrict(x * sympy.log(x) - x * sympy.log(y) - x + y, _all([_gt0(x), _gt0(y)])),
     F.logistic: lambda x: sympy.log(1 + sympy.exp(x)),
-    F.inv_pos: lambda x: _restrict(1 / x, x > 0),
+    F.inv_pos: lambda x: _restrict(1 / x, _gt0(x)),
     F.pos: lambda x: _max(x, 0),
     F.neg: lambda x: _max(-x, 0),
     F.log1p: lambda x: sympy.log(1 + x),
-    F.xexp: lambda x: _restrict(x * sympy.exp(x), x >= 0),
+    F.xexp: lambda x: _restrict(x * sympy.exp(x), _ge0(x)),
 }
 
 
