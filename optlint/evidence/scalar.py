@@ -445,7 +445,7 @@ def _small(*exprs) -> bool:
 def _piecewise(pairs):
     if _small(*[c for _, c in pairs]) and not any(c.has(sympy.Piecewise) for _, c in pairs):
         return sympy.Piecewise(*pairs)
-    return sympy.Basic.__new__(sympy.Piecewise, *[sympy.Tuple.__new__(ExprCondPair, sympy.sympify(v), c)
+    return sympy.Basic.__new__(sympy.Piecewise, *[sympy.Tuple.__new__(ExprCondPair, v if isinstance(v, sympy.Basic) else sympy.Float(v), c)
                                                    for v, c in pairs])
 
 
