@@ -25,10 +25,10 @@ objective = cp.Minimize(cp.sum(cp.huber(x, 1.0)))
 
 
 def message(analysis, j) -> str:
-    from optlint.calculus.analysis import unknown_label
+    from optlint.calculus.analysis import operator_text, unknown_label
 
     names = j.result.unknown_functions
-    if all(unknown_label(n) == f"function `{n}`" for n in names):
+    if not any(operator_text(n) for n in names):
         listed = ", ".join(f"`{n}`" for n in names)
         plural = "functions" if len(names) > 1 else "function"
         return (f"curvature unknown: {plural} {listed} applied to decision variables "

@@ -272,18 +272,22 @@ def _undef_name(node: sympy.Basic) -> str:
 OPERATOR_PREFIX = "operator"
 
 
+def operator_text(name: str) -> str | None:
+    """The operator of an unknown function the interpreter named ``operator`` + its text
+    (``operator+``: one operand is a model term, the other nothing optlint models), else None."""
+    rest = name[len(OPERATOR_PREFIX):]
+    return rest if name.startswith(OPERATOR_PREFIX) and rest and not rest[0].isalnum() else None
+
+
 def unknown_label(name: str) -> str:
-    """How a finding names an unknown function: the interpreter names an operation it cannot follow
-    ``operator`` + its text (``operator+``: one operand is a model term, the other nothing optlint
-    models); that is worded as such instead of showing the internal name."""
-    if name.startswith(OPERATOR_PREFIX) and len(name) > len(OPERATOR_PREFIX) and not name[len(OPERATOR_PREFIX)].isalnum():
-        return f"operator `{name[len(OPERATOR_PREFIX):]}` with an operand optlint cannot follow"
-    return f"function `{name}`"
+    """How a finding names an unknown function; an operation is worded as such, never by its
+    internal name."""
+    op = operator_text(name)
+    return f"operator `{op}` with an operand optlint cannot follow" if op else f"function `{name}`"
 
 
 def _reason_label(name: str) -> str:
-    label = unknown_label(name)
-    return f"function '{name}'" if label == f"function `{name}`" else label
+    return unknown_label(name) if operator_text(name) else f"function '{name}'"
 
 
 def _bad_leaf(node: sympy.Basic, reason: str) -> _Node:

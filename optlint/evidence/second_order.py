@@ -91,7 +91,7 @@ def _constant_psd(h: sympy.Matrix) -> tuple[bool, float] | None:
     return (bool(exact), low) if exact is not None else None
 
 
-def _degree_bound(expr) -> int:
+def degree_bound(expr) -> int:
     """An upper bound of the total degree of ``expr`` brought over a common denominator (numerator
     and denominator together), each symbol and each non-polynomial part counted as one generator."""
     memo: dict = {}
@@ -140,7 +140,7 @@ def _minors_nonnegative(h: sympy.Matrix) -> bool:
             if sum(_nodes(e) for e in sub) > MAX_MINOR_ENTRY_NODES:
                 return False  # a determinant of large entries, or cancelling one, can take a minute
             m = sub.det(method="berkowitz") if k > 1 else sub[0, 0]
-            if _nodes(m) > MAX_MINOR_NODES or _degree_bound(m) > MAX_MINOR_DEGREE:
+            if _nodes(m) > MAX_MINOR_NODES or degree_bound(m) > MAX_MINOR_DEGREE:
                 return False  # factoring a polynomial of degree 40 in 3 variables takes minutes
             if _coefficient_bits(m) > MAX_COEFFICIENT_BITS:
                 return False  # 1e308 read exactly is a 1,024-bit integer: factoring took 12 s in primality tests
@@ -251,7 +251,7 @@ def prove_convex(expr, model, facts) -> dict[str, Any] | None:
         return None
     symbols = [mapping[s] for s in sc.symbols]
     # Poly expands: on a degree-16 polynomial in 3 variables that alone takes many seconds
-    quadratic = (_degree_bound(f) <= 4 and f.is_polynomial(*symbols)
+    quadratic = (degree_bound(f) <= 4 and f.is_polynomial(*symbols)
                  and sympy.Poly(f, *symbols).total_degree() <= 2)
     if not quadratic and (len(symbols) > MAX_SYMBOLIC or _nodes(f) > MAX_NODES):
         return None

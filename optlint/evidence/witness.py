@@ -33,6 +33,7 @@ import sympy
 
 from .numeric import evaluate
 from .scalar import Scalarised, Unsupported, scalarise, substitute
+from .second_order import degree_bound
 from optlint.lift import preorder
 
 SEED = 20261201
@@ -51,30 +52,6 @@ _MAX_POWER = 1024
 _MAX_ROOT_DEGREE = 8  # a piece with a higher power is not looked at for a root (it is not affine anyway)
 
 
-def _degree_bound(node, free) -> float:
-    """An upper bound on the total degree of a polynomial expression in ``free``, from its shape
-    alone (a sum: the largest; a product: the sum; a power: the exponent times the base's), without
-    expanding it. A cancellation such as (x + 1)**2 - x**2 is bounded by 2, not 1: no affine root is
-    tried for it, which only loses a candidate point."""
-    memo: dict = {}
-    for n in reversed(list(preorder(node))):
-        if n in memo:
-            continue
-        if not (n.free_symbols & free):
-            memo[n] = 0
-        elif n in free:
-            memo[n] = 1
-        elif isinstance(n, sympy.Add):
-            memo[n] = max(memo[a] for a in n.args)
-        elif isinstance(n, sympy.Mul):
-            memo[n] = sum(memo[a] for a in n.args)
-        elif isinstance(n, sympy.Pow) and n.exp.is_Integer and n.exp >= 0:
-            memo[n] = int(n.exp) * memo[n.base]
-        else:
-            memo[n] = math.inf
-    return memo[node]
-
-
 def _affine_root(node, index) -> tuple[int, float] | None:
     """For an affine piece c·x + d (any number of variables): the coordinate with the largest
     coefficient and where the piece vanishes along it, the others at 0."""
@@ -88,7 +65,7 @@ def _affine_root(node, index) -> tuple[int, float] | None:
         return None
     if any(n.is_Pow and n.exp.is_Number and abs(n.exp) > _MAX_ROOT_DEGREE for n in preorder(node)):
         return None  # Poly is dense: x**10**10 would ask for 10**10 coefficients (a fuzzed model ran out of memory)
-    if _degree_bound(node, free) > 1:
+    if degree_bound(node) > 1:  # node is a polynomial in its variables only: the bound is its degree's
         return None  # not affine as written; expanding (18-term sum)**6 into 134,596 terms took minutes (fuzzed)
     try:
         poly = sympy.Poly(node, *sorted(free, key=str))

@@ -22,7 +22,6 @@ import json
 import multiprocessing as mp
 import os
 import queue
-import random
 import sys
 import threading
 import time
@@ -32,12 +31,10 @@ HERE = Path(__file__).resolve().parent
 
 
 def _mutant(modules, files, k):
-    from test_fuzz import Mutator
+    from test_fuzz import mutant
 
-    path = files[k % len(files)]
-    rng = random.Random(f"mutant-{k}")
-    mutator = Mutator(rng, rng.uniform(0.03, 0.25))
-    return path, modules[path].visit(mutator).code
+    path, text, _ = mutant(modules, files, k)
+    return path, text
 
 
 def _worker(ks, results, limit):

@@ -159,6 +159,15 @@ def _fixtures() -> dict[Path, cst.Module]:
     return out
 
 
+def mutant(modules: dict[Path, cst.Module], files: list[Path], k: int) -> tuple[Path, str, int]:
+    """Mutant number k: its fixture, its text and how many mutations it holds (also used by
+    tests/robust/scan_mutants.py, so a number reported there is this one)."""
+    path = files[k % len(files)]
+    rng = random.Random(f"mutant-{k}")
+    mutator = Mutator(rng, rng.uniform(0.03, 0.25))
+    return path, modules[path].visit(mutator).code, mutator.count
+
+
 def test_mutated_models_never_crash_the_engine():
     modules = _fixtures()
     files = list(modules)
@@ -166,15 +175,12 @@ def test_mutated_models_never_crash_the_engine():
     stats: Counter = Counter()
     unparsable = 0
     for k in range(MUTANTS):
-        path = files[k % len(files)]
-        rng = random.Random(f"mutant-{k}")
-        mutator = Mutator(rng, rng.uniform(0.03, 0.25))
         try:
-            text = modules[path].visit(mutator).code
+            path, text, count = mutant(modules, files, k)
         except (cst.ParserSyntaxError, ValueError):  # a splice libcst itself refuses to print
             unparsable += 1
             continue
-        stats["mutations"] += mutator.count
+        stats["mutations"] += count
         _check(path, text, MUTANT_BUDGET, stats)   # the fixture's own path: its sibling helpers are read
     print(f"\nmutants: {dict(stats)}, not printable: {unparsable}")
     assert stats["programs"] >= MUTANTS * 0.9
